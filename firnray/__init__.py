@@ -1,0 +1,37 @@
+"""firnray: radio rays through polar firn and ice.
+
+The public API (see ``docs/guide.md``)::
+
+    import firnray
+    prof = firnray.load_profile("demo-dry-firn")          # or firnray.ExponentialProfile(...)
+    rays = firnray.find_rays(prof, source=(0.0, -600.0), receiver=(1500.0, -100.0))
+    batch = firnray.find_rays_many(prof, sources, receivers)
+
+Layers (one folder each; a module imports only from its own layer or lower
+ones): ``medium`` (index profiles, files) -> ``rays`` (closed-form kernels,
+root finding, results) -> ``faces`` (command line).
+"""
+
+from firnray.errors import FirnrayWarning, ProfileFileError
+from firnray.medium.files import bundled_profiles, load_profile
+from firnray.medium.profiles import ExponentialProfile, IndexProfile
+from firnray.rays.results import KIND_CODES, KIND_NAMES, Ray, RaySet
+from firnray.rays.solve import find_rays, find_rays_many
+
+__version__ = "0.1.0"
+
+__all__ = [
+    "ExponentialProfile",
+    "FirnrayWarning",
+    "IndexProfile",
+    "KIND_CODES",
+    "KIND_NAMES",
+    "ProfileFileError",
+    "Ray",
+    "RaySet",
+    "__version__",
+    "bundled_profiles",
+    "find_rays",
+    "find_rays_many",
+    "load_profile",
+]

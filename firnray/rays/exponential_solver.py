@@ -1,0 +1,398 @@
+"""Root finding for rays in an exponential profile: every ray between two points.
+
+The horizontal distance of each ray family is a closed-form function of one
+angle (``exponential_kernels``).  For two points in the ice, with z_hi the
+shallower one, the elevation ``psi`` of the ray at z_hi parametrises
+
+* the direct family: X_d(psi) falls monotonically from the direct horizon
+  X_h = X_d(0) to 0 at psi = pi/2;
+* the up-going family: X_u(0) = X_h, dX_u/dpsi(0) > 0, a single maximum (the
+  largest reach X_max) at psi* in (0, psi_s], where psi_s is the ray that
+  grazes the surface, then a monotone fall to 0 at psi = pi/2 (vertical
+  bounce).  Refracted for psi < psi_s, reflected beyond.
+
+So for a target distance X: X < X_h gives one direct and one up-going ray;
+X_h <= X <= X_max gives two up-going rays (one each side of psi*); X > X_max
+gives none (shadow zone).  Each root is polished by a Newton iteration on the
+closed-form derivative, safeguarded by bisection inside its bracket.  The
+single maximum is checked numerically by the tests on random geometries
+(``tests/test_family_shape.py``).
+
+One point in the air gives one transmitted ray, parametrised by its zenith
+angle phi in the air; two points in the air give the straight ray and the one
+reflected by the surface.  A uniform index (n_surface == n_deep) in the ice
+is solved as straight lines with the image point for the bounce.
+
+All functions are numba kernels; ``solve_pairs`` runs over pairs in parallel.
+"""
+
+import math
+
+import numba
+import numpy as np
+
+from firnray.rays.exponential_kernels import (
+    KERNEL_OPTIONS,
+    family_distance,
+    family_sums,
+    kernel,
+    level_state,
+    turning_height,
+)
+
+#: Largest number of rays between two points in an exponential profile.
+MAX_RAYS = 2
+
+#: Kind codes used in the result arrays (see ``firnray.rays.results``).
+DIRECT, REFRACTED, REFLECTED, TRANSMITTED = 0, 1, 2, 3
+
+#: Speed of light in vacuum [m/ns] (exact by the definition of the metre).
+C_M_PER_NS = 0.299792458
+
+HALF_PI = 0.5 * math.pi
+MAX_ITER = 200
+
+# Output columns of the float result array, per ray.
+COL_INVARIANT, COL_TIME, COL_LENGTH, COL_LAUNCH, COL_ARRIVAL, COL_TURNING, COL_SLOWNESS = range(7)
+N_COLS = 7
+
+
+@kernel
+def transmitted_distance(phi, h, n_air, a, delta, s, z_lo, u_lo, n_lo):
+    """X [m] and dX/dphi [m/rad] of the air-ice ray at air zenith phi [rad].
+
+    X = h tan(phi) + X_ice(b), b = n_air sin(phi); the ice part is the direct
+    segment from z_lo up to the surface, with vertical slowness
+    p_s = sqrt(n_s^2 - b^2) at the surface.
+    """
+    b = n_air * math.sin(phi)
+    n_s = a - delta
+    p = math.sqrt((n_s - b) * (n_s + b))
+    q, sd, sh, sw, slope, w_lo, code = family_sums(False, b, p, a, delta, s, z_lo, u_lo,
+                                                   n_lo, 0.0, 1.0, n_s)
+    cphi = math.cos(phi)
+    x = h * math.tan(phi) + b * sd / q
+    dx_db = sd * a * a / (q * q * q) - b * slope / (q * p)
+    return x, h / (cphi * cphi) + dx_db * n_air * cphi
+
+
+@kernel
+def evaluate(mode, t, h, n_air, a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi):
+    """Distance and slope of family ``mode`` (0 direct, 1 up-going, 2 transmitted)."""
+    if mode == 2:
+        return transmitted_distance(t, h, n_air, a, delta, s, z_lo, u_lo, n_lo)
+    return family_distance(mode == 1, t, a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
+
+
+@kernel
+def polish_root(mode, x_target, t_a, f_a, t_b, f_b, h, n_air, a, delta, s,
+                z_lo, u_lo, n_lo, z_hi, u_hi, n_hi):
+    """Root of X(t) = x_target in the bracket [t_a, t_b] (f_a, f_b of opposite sign).
+
+    Newton steps on the closed-form slope, replaced by bisection whenever a
+    step would leave the bracket or fails to halve it.
+
+    Returns
+    -------
+    t : float
+        The root [rad].
+    converged : bool
+        True if |X(t) - x_target| <= 1e-12 (1 + x_target) or the bracket
+        shrank to rounding.
+    """
+    if f_a == 0.0:
+        return t_a, True
+    if f_b == 0.0:
+        return t_b, True
+    # orient so that f(lo) < 0 < f(hi)
+    if f_a < 0.0:
+        lo, hi = t_a, t_b
+    else:
+        lo, hi = t_b, t_a
+    tol = 1e-12 * (1.0 + x_target)
+    t = 0.5 * (t_a + t_b)
+    width_old = abs(t_b - t_a)
+    width = width_old
+    x, dx = evaluate(mode, t, h, n_air, a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
+    for _ in range(MAX_ITER):
+        f = x - x_target
+        if abs(f) <= tol:
+            return t, True
+        if f < 0.0:
+            lo = t
+        else:
+            hi = t
+        step_ok = False
+        if dx != 0.0 and math.isfinite(dx):
+            t_new = t - f / dx
+            if (t_new - lo) * (t_new - hi) < 0.0 and abs(f / dx) < 0.5 * width_old:
+                step_ok = True
+        width_old = width
+        if not step_ok:
+            t_new = 0.5 * (lo + hi)
+        width = abs(t_new - t)
+        if t_new == t or abs(hi - lo) <= 4e-16 * max(abs(lo), abs(hi)) + 1e-300:
+            return t_new, True
+        t = t_new
+        x, dx = evaluate(mode, t, h, n_air, a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
+    return t, False
+
+
+@kernel
+def up_family_peak(a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi):
+    """Angle psi* [rad] and distance X_max [m] of the largest reach of the up-going family.
+
+    dX_u/dpsi > 0 at psi = 0; if it is still >= 0 just below the surface-
+    grazing angle psi_s, the maximum is the grazing ray itself (the reflected
+    side falls with infinite slope); otherwise the zero of dX_u/dpsi in
+    (0, psi_s) is found by the Illinois variant of regula falsi.
+    """
+    n_s = a - delta
+    p_s = math.sqrt(max(delta * (1.0 - u_hi) * (n_hi + n_s), 0.0))
+    psi_s = math.atan2(p_s, n_s)
+    t_b = psi_s * (1.0 - 1e-13)
+    x_b, g_b = family_distance(True, t_b, a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
+    if g_b >= 0.0:
+        x_s, g_s = family_distance(True, psi_s, a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
+        if x_s >= x_b:
+            return psi_s, x_s
+        return t_b, x_b
+    t_a = 0.0
+    x_a, g_a = family_distance(True, t_a, a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
+    side = 0
+    t = t_a
+    x = x_a
+    for _ in range(MAX_ITER):
+        t = (t_a * g_b - t_b * g_a) / (g_b - g_a)
+        if not (t > t_a and t < t_b):
+            t = 0.5 * (t_a + t_b)
+        x, g = family_distance(True, t, a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
+        if g == 0.0 or (t_b - t_a) <= 1e-15 * t_b:
+            break
+        if g > 0.0:
+            t_a, g_a = t, g
+            if side == 1:
+                g_b *= 0.5
+            side = 1
+        else:
+            t_b, g_b = t, g
+            if side == -1:
+                g_a *= 0.5
+            side = -1
+        if (t_b - t_a) <= 1e-13 * t_b:
+            break
+    return t, x
+
+
+@kernel
+def store_ray(out, kinds, conv, i, k, code, b, c_time, length, launch, arrival,
+              turning, slowness, converged):
+    out[i, k, COL_INVARIANT] = b
+    out[i, k, COL_TIME] = c_time / C_M_PER_NS
+    out[i, k, COL_LENGTH] = length
+    out[i, k, COL_LAUNCH] = math.degrees(launch)
+    out[i, k, COL_ARRIVAL] = math.degrees(arrival)
+    out[i, k, COL_TURNING] = turning
+    out[i, k, COL_SLOWNESS] = slowness
+    kinds[i, k] = code
+    conv[i, k] = converged
+
+
+@kernel
+def store_ice_ray(out, kinds, conv, i, k, up, psi, converged, swapped,
+                  a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi):
+    """Evaluate the ray of a family at psi and write it to row i, slot k."""
+    b = n_hi * math.cos(psi)
+    p = n_hi * math.sin(psi)
+    q, sd, sh, sw, slope, w_lo, code = family_sums(up, b, p, a, delta, s, z_lo, u_lo,
+                                                   n_lo, z_hi, u_hi, n_hi)
+    x = b * sd / q
+    length = s * sh + a * sd / q
+    c_time = s * sw + a * s * sh + q * sd + b * x
+    turning = math.nan
+    if code == 1:
+        turning = turning_height(a, delta, s, b, q)
+    theta_lo = math.atan2(b, w_lo)
+    theta_hi = math.atan2(b, p)
+    if up:
+        theta_hi = math.pi - theta_hi
+    if swapped:
+        launch, arrival = math.pi - theta_hi, math.pi - theta_lo
+    else:
+        launch, arrival = theta_lo, theta_hi
+    store_ray(out, kinds, conv, i, k, code, b, c_time, length, launch, arrival,
+              turning, p, converged)
+
+
+@kernel
+def solve_uniform_ice(out, kinds, conv, i, n, x_target, z_src, z_rcv, mirror):
+    """Straight rays in a uniform index n: the direct line and the image bounce.
+
+    With ``mirror`` the heights given are the negated heights of two points in
+    the air (the bounce is then off the surface from above) and the zenith
+    angles are mirrored back.
+    """
+    k = 0
+    for bounce in range(2):
+        if bounce == 1 and (z_src >= 0.0 or z_rcv >= 0.0):
+            break
+        if bounce == 0:
+            dz = z_rcv - z_src
+        else:
+            dz = -z_rcv - z_src  # image of the receiver above the surface
+        length = math.hypot(x_target, dz)
+        launch = math.atan2(x_target, dz)
+        if bounce == 0:
+            arrival = launch
+        else:
+            arrival = math.pi - launch
+        code = DIRECT if bounce == 0 else REFLECTED
+        if mirror:
+            launch, arrival = math.pi - launch, math.pi - arrival
+        store_ray(out, kinds, conv, i, k, code, n * x_target / length, n * length, length,
+                  launch, arrival, math.nan, abs(n * dz / length), True)
+        k += 1
+    return k
+
+
+@kernel
+def solve_ice_pair(out, kinds, conv, i, a, delta, s, x_target, z_src, z_rcv):
+    """Every ray between two points in the ice; returns their number."""
+    if delta == 0.0:
+        return solve_uniform_ice(out, kinds, conv, i, a, x_target, z_src, z_rcv, False)
+    swapped = z_src > z_rcv
+    if swapped:
+        z_lo, z_hi = z_rcv, z_src
+    else:
+        z_lo, z_hi = z_src, z_rcv
+    u_lo, n_lo = level_state(a, delta, s, z_lo)
+    u_hi, n_hi = level_state(a, delta, s, z_hi)
+    x_h, g_h = family_distance(False, 0.0, a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
+    k = 0
+    if x_target < x_h and z_lo < z_hi:
+        psi, ok = polish_root(0, x_target, 0.0, x_h - x_target, HALF_PI, -x_target, 0.0, 1.0,
+                              a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
+        store_ice_ray(out, kinds, conv, i, k, False, psi, ok, swapped,
+                      a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
+        k += 1
+    if z_hi >= 0.0:
+        return k
+    if x_target < x_h:
+        psi, ok = polish_root(1, x_target, 0.0, x_h - x_target, HALF_PI, -x_target, 0.0, 1.0,
+                              a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
+        store_ice_ray(out, kinds, conv, i, k, True, psi, ok, swapped,
+                      a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
+        return k + 1
+    psi_peak, x_max = up_family_peak(a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
+    f_peak = x_max - x_target
+    if f_peak < 0.0:
+        return k
+    if f_peak <= 1e-12 * (1.0 + x_target):
+        store_ice_ray(out, kinds, conv, i, k, True, psi_peak, True, swapped,
+                      a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
+        return k + 1
+    psi, ok = polish_root(1, x_target, 0.0, x_h - x_target, psi_peak, f_peak, 0.0, 1.0,
+                          a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
+    store_ice_ray(out, kinds, conv, i, k, True, psi, ok, swapped,
+                  a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
+    psi, ok = polish_root(1, x_target, psi_peak, f_peak, HALF_PI, -x_target, 0.0, 1.0,
+                          a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
+    store_ice_ray(out, kinds, conv, i, k + 1, True, psi, ok, swapped,
+                  a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
+    return k + 2
+
+
+@kernel
+def solve_air_ice_pair(out, kinds, conv, i, a, delta, s, n_air, x_target, z_src, z_rcv):
+    """The transmitted ray between a point in the air and one in the ice."""
+    source_in_air = z_src > 0.0
+    if source_in_air:
+        h, z_lo = z_src, z_rcv
+    else:
+        h, z_lo = z_rcv, z_src
+    u_lo, n_lo = level_state(a, delta, s, z_lo)
+    phi_top = math.atan2(x_target, h)
+    x_top, g_top = transmitted_distance(phi_top, h, n_air, a, delta, s, z_lo, u_lo, n_lo)
+    phi, ok = polish_root(2, x_target, 0.0, -x_target, phi_top, x_top - x_target, h, n_air,
+                          a, delta, s, z_lo, u_lo, n_lo, 0.0, 1.0, a - delta)
+    b = n_air * math.sin(phi)
+    n_s = a - delta
+    p = math.sqrt((n_s - b) * (n_s + b))
+    q, sd, sh, sw, slope, w_lo, code = family_sums(False, b, p, a, delta, s, z_lo, u_lo,
+                                                   n_lo, 0.0, 1.0, n_s)
+    x_ice = b * sd / q
+    air_length = h / math.cos(phi)
+    length = s * sh + a * sd / q + air_length
+    c_time = s * sw + a * s * sh + q * sd + b * x_ice + n_air * air_length
+    theta_ice = math.atan2(b, w_lo)
+    if source_in_air:
+        launch, arrival = math.pi - phi, math.pi - theta_ice
+    else:
+        launch, arrival = theta_ice, phi
+    store_ray(out, kinds, conv, i, 0, TRANSMITTED, b, c_time, length, launch, arrival,
+              math.nan, p, ok)
+    return 1
+
+
+@kernel
+def solve_pair(out, kinds, conv, i, a, delta, s, n_air, x_target, z_src, z_rcv):
+    """Every ray for pair i, written to ``out[i]``; returns their number."""
+    if z_src > 0.0 and z_rcv > 0.0:
+        return solve_uniform_ice(out, kinds, conv, i, n_air, x_target, -z_src, -z_rcv, True)
+    if z_src > 0.0 or z_rcv > 0.0:
+        return solve_air_ice_pair(out, kinds, conv, i, a, delta, s, n_air, x_target,
+                                  z_src, z_rcv)
+    return solve_ice_pair(out, kinds, conv, i, a, delta, s, x_target, z_src, z_rcv)
+
+
+@numba.njit(parallel=True, **KERNEL_OPTIONS)
+def solve_pairs(a, delta, s, n_air, x_target, z_src, z_rcv, out, kinds, conv, count):
+    """Solve every pair in parallel (numba threads).
+
+    Parameters
+    ----------
+    a, delta : float
+        n_deep and n_deep - n_surface [1].
+    s : float
+        Scale depth [m].
+    n_air : float
+        Index above the surface [1].
+    x_target, z_src, z_rcv : ndarray, shape (N,)
+        Horizontal distance [m], source and receiver heights [m].  A row with
+        a NaN is skipped (count 0).
+    out : ndarray, shape (N, MAX_RAYS, N_COLS)
+        Filled with NaN by the caller; receives the ray quantities.
+    kinds : ndarray of int8, shape (N, MAX_RAYS)
+        Receives the kind codes (-1 where no ray).
+    conv : ndarray of bool, shape (N, MAX_RAYS)
+        Receives the convergence flags.
+    count : ndarray of int64, shape (N,)
+        Receives the number of rays per pair.
+    """
+    for i in numba.prange(x_target.shape[0]):
+        x, zs, zr = x_target[i], z_src[i], z_rcv[i]
+        if not (math.isfinite(x) and math.isfinite(zs) and math.isfinite(zr)):
+            count[i] = 0
+            continue
+        count[i] = solve_pair(out, kinds, conv, i, a, delta, s, n_air, x, zs, zr)
+        # order by travel time
+        if count[i] == 2 and out[i, 1, COL_TIME] < out[i, 0, COL_TIME]:
+            for c in range(N_COLS):
+                tmp = out[i, 0, c]
+                out[i, 0, c] = out[i, 1, c]
+                out[i, 1, c] = tmp
+            kk = kinds[i, 0]
+            kinds[i, 0] = kinds[i, 1]
+            kinds[i, 1] = kk
+            cc = conv[i, 0]
+            conv[i, 0] = conv[i, 1]
+            conv[i, 1] = cc
+
+
+def allocate(n_pairs):
+    """Output arrays for ``solve_pairs``: (out, kinds, conv, count)."""
+    out = np.full((n_pairs, MAX_RAYS, N_COLS), np.nan)
+    kinds = np.full((n_pairs, MAX_RAYS), -1, dtype=np.int8)
+    conv = np.zeros((n_pairs, MAX_RAYS), dtype=np.bool_)
+    count = np.zeros(n_pairs, dtype=np.int64)
+    return out, kinds, conv, count

@@ -1,0 +1,284 @@
+"""Ray results: one ``Ray`` per path, and ``RaySet`` for a batch of pairs.
+
+``RaySet`` holds (N, K) arrays, NaN-padded and sorted by travel time along K;
+``RaySet[i]`` gives the list of ``Ray`` objects of pair i, the same list that
+``find_rays`` returns for that pair.
+"""
+
+import math
+
+import numpy as np
+
+from firnray.rays import exponential_kernels as ek
+from firnray.rays import exponential_solver as es
+
+#: Kind code -> name, as stored in ``RaySet.kind`` (-1 where there is no ray).
+KIND_NAMES = {es.DIRECT: "direct", es.REFRACTED: "refracted", es.REFLECTED: "reflected",
+              es.TRANSMITTED: "transmitted"}
+#: Kind name -> code.
+KIND_CODES = {name: code for code, name in KIND_NAMES.items()}
+
+PATH_DTYPE = np.dtype([("x", float), ("z", float)])
+
+
+def _direction(zenith_deg, horizontal):
+    theta = math.radians(zenith_deg)
+    return np.array([math.sin(theta) * horizontal[0], math.sin(theta) * horizontal[1],
+                     math.cos(theta)])
+
+
+class Ray:
+    """One ray between a source and a receiver.
+
+    Attributes
+    ----------
+    kind : str
+        "direct", "refracted", "reflected" or "transmitted".
+    invariant : float
+        Snell invariant b = n(z) sin(zenith) [1].
+    travel_time : float
+        Travel time [ns].
+    path_length : float
+        Geometric length of the path [m].
+    launch_zenith, arrival_zenith : float
+        Zenith angle of the propagation direction at the source and at the
+        receiver [deg] (0 = up, 90 = horizontal, 180 = down).
+    turning_z : float or None
+        Height of the turning point of a refracted ray [m]; None otherwise.
+    converged : bool
+        Whether the root finder met its tolerance.
+    source, receiver : ndarray, shape (3,)
+        End points (x, y, z) [m].
+    """
+
+    __slots__ = ("kind", "invariant", "travel_time", "path_length", "launch_zenith",
+                 "arrival_zenith", "turning_z", "converged", "source", "receiver",
+                 "_profile", "_slowness")
+
+    def __init__(self, profile, source, receiver, kind, invariant, travel_time, path_length,
+                 launch_zenith, arrival_zenith, turning_z, converged, slowness):
+        self._profile = profile
+        self.source = source
+        self.receiver = receiver
+        self.kind = kind
+        self.invariant = invariant
+        self.travel_time = travel_time
+        self.path_length = path_length
+        self.launch_zenith = launch_zenith
+        self.arrival_zenith = arrival_zenith
+        self.turning_z = turning_z
+        self.converged = converged
+        self._slowness = slowness
+
+    def __repr__(self):
+        turn = "None" if self.turning_z is None else f"{self.turning_z:.3f}"
+        return (f"Ray(kind={self.kind!r}, travel_time={self.travel_time:.4f} ns, "
+                f"launch_zenith={self.launch_zenith:.4f} deg, "
+                f"arrival_zenith={self.arrival_zenith:.4f} deg, "
+                f"path_length={self.path_length:.4f} m, turning_z={turn})")
+
+    def as_dict(self):
+        """The ray's quantities as a plain dict (units as the attributes)."""
+        return {"kind": self.kind, "travel_time": self.travel_time,
+                "path_length": self.path_length, "launch_zenith": self.launch_zenith,
+                "arrival_zenith": self.arrival_zenith, "invariant": self.invariant,
+                "turning_z": self.turning_z, "converged": self.converged}
+
+    def _horizontal(self):
+        d = self.receiver[:2] - self.source[:2]
+        dist = math.hypot(d[0], d[1])
+        return (1.0, 0.0) if dist == 0.0 else (d[0] / dist, d[1] / dist)
+
+    @property
+    def launch_direction(self):
+        """Unit propagation vector (x, y, z) at the source, in the caller's frame [1]."""
+        return _direction(self.launch_zenith, self._horizontal())
+
+    @property
+    def arrival_direction(self):
+        """Unit propagation vector (x, y, z) at the receiver, in the caller's frame [1]."""
+        return _direction(self.arrival_zenith, self._horizontal())
+
+    def path(self, n_points=200):
+        """Points along the ray from the source to the receiver.
+
+        Parameters
+        ----------
+        n_points : int, optional
+            Number of points per segment (a segment ends at a turning point,
+            at the surface or at an end point), >= 2.
+
+        Returns
+        -------
+        ndarray
+            Structured array with fields ``x`` (horizontal distance from the
+            source along the source-receiver direction) [m] and ``z``
+            (height) [m].
+        """
+        if not isinstance(n_points, (int, np.integer)) or n_points < 2:
+            raise ValueError(f"n_points must be an integer >= 2, got {n_points!r}")
+        return ray_path(self._profile, self.source, self.receiver, self.kind,
+                        self.invariant, self._slowness, int(n_points))
+
+
+def _segment_x(a, delta, s, b, q, ref, z1, z2, turning=False):
+    """Horizontal distance [m] of the monotone segment z1 -> z2 (z1 < z2) at invariant b."""
+    u_ref, n_ref, p_ref = ref
+    u1, n1 = ek.level_state(a, delta, s, z1)
+    w1 = math.sqrt(max(ek.slowness_sq(delta, u_ref, n_ref, u1, n1, p_ref), 0.0))
+    if turning:
+        d, _, _ = ek.turning_terms(a, delta, s, b, q, z1, u1, n1, w1)
+    else:
+        u2, n2 = ek.level_state(a, delta, s, z2)
+        w2 = math.sqrt(max(ek.slowness_sq(delta, u_ref, n_ref, u2, n2, p_ref), 0.0))
+        d, _, _ = ek.segment_terms(a, delta, s, b, q, z1, u1, n1, w1, z2, u2, n2, w2)
+    return b * d / q
+
+
+def _rising(z1, z2, n, towards_top):
+    """Heights from z1 up to z2, denser towards z2 if ``towards_top`` (a turning point)."""
+    t = np.linspace(0.0, 1.0, n)
+    if towards_top:
+        t = 1.0 - (1.0 - t) ** 2
+    return z1 + (z2 - z1) * t
+
+
+def ray_path(profile, source, receiver, kind, b, p, n_points):
+    """Points (x, z) of a ray; see :meth:`Ray.path`."""
+    a, delta, s, n_air = profile.parameters
+    zs, zr = float(source[2]), float(receiver[2])
+    x_total = math.hypot(receiver[0] - source[0], receiver[1] - source[1])
+    if kind == "transmitted":
+        z_ice, h = (zr, zs) if zs > 0.0 else (zs, zr)
+        if delta == 0.0 and z_ice == 0.0:
+            zz = np.array([z_ice])
+            xx = np.array([0.0])
+        else:
+            q = math.sqrt(delta * (a + a - delta) + p * p)
+            ref = (1.0, a - delta, p)
+            zz = _rising(z_ice, 0.0, n_points, False)
+            xx = np.array([_segment_x(a, delta, s, b, q, ref, z_ice, z) for z in zz])
+        x_surf = xx[-1]
+        za = np.linspace(0.0, h, n_points)[1:]
+        xa = x_surf + za * b / math.sqrt(n_air * n_air - b * b)
+        xx, zz = np.concatenate([xx, xa]), np.concatenate([zz, za])
+        forward = zs <= 0.0
+    elif zs > 0.0 and zr > 0.0 or delta == 0.0:
+        # straight lines (uniform medium, or both points in the air)
+        if kind == "reflected":
+            zm = 0.0
+            frac = abs(zs) / (abs(zs) + abs(zr))
+            xx = np.concatenate([np.linspace(0.0, frac * x_total, n_points),
+                                 np.linspace(frac * x_total, x_total, n_points)[1:]])
+            zz = np.concatenate([np.linspace(zs, zm, n_points), np.linspace(zm, zr, n_points)[1:]])
+        else:
+            xx = np.linspace(0.0, x_total, n_points)
+            zz = np.linspace(zs, zr, n_points)
+        out = np.empty(len(xx), dtype=PATH_DTYPE)
+        out["x"], out["z"] = xx, zz
+        return out
+    else:
+        swapped = zs > zr
+        z_lo, z_hi = (zr, zs) if swapped else (zs, zr)
+        u_hi, n_hi = ek.level_state(a, delta, s, z_hi)
+        q = math.sqrt(delta * u_hi * (a + n_hi) + p * p)
+        ref = (u_hi, n_hi, p)
+        if kind == "direct":
+            zz = _rising(z_lo, z_hi, n_points, False)
+            xx = np.array([_segment_x(a, delta, s, b, q, ref, z_lo, z) for z in zz])
+        else:
+            if kind == "refracted":
+                z_top = ek.turning_height(a, delta, s, b, q)
+                turn = True
+            else:
+                z_top = 0.0
+                turn = False
+            up = _rising(z_lo, z_top, n_points, turn)
+            x_up = np.array([_segment_x(a, delta, s, b, q, ref, z_lo, z) for z in up[:-1]])
+            x_top = _segment_x(a, delta, s, b, q, ref, z_lo, z_top, turning=turn)
+            down = _rising(z_hi, z_top, n_points, turn)[::-1]
+            x_dn = np.array([_segment_x(a, delta, s, b, q, ref, z, z_top, turning=turn)
+                             for z in down[1:]])
+            xx = np.concatenate([x_up, [x_top], x_top + x_dn])
+            zz = np.concatenate([up[:-1], [z_top], down[1:]])
+        forward = not swapped
+    if not forward:
+        xx = xx[-1] - xx[::-1]
+        zz = zz[::-1]
+    out = np.empty(len(xx), dtype=PATH_DTYPE)
+    out["x"], out["z"] = xx, zz
+    return out
+
+
+class RaySet:
+    """Rays for N source-receiver pairs, as (N, K) arrays sorted by travel time.
+
+    Attributes
+    ----------
+    travel_time : ndarray, shape (N, K)
+        [ns], NaN where pair i has fewer than K rays.
+    path_length : ndarray, shape (N, K)
+        [m].
+    launch_zenith, arrival_zenith : ndarray, shape (N, K)
+        [deg].
+    invariant : ndarray, shape (N, K)
+        Snell invariant [1].
+    turning_z : ndarray, shape (N, K)
+        Turning height of refracted rays [m], NaN for other kinds.
+    kind : ndarray of int8, shape (N, K)
+        Kind codes (see ``kind_names``), -1 where there is no ray.
+    kind_names : dict
+        Code -> kind name.
+    converged : ndarray of bool, shape (N, K)
+        Root finder met its tolerance (False where there is no ray).
+    count : ndarray of int, shape (N,)
+        Number of rays per pair (0 in a shadow zone or for an invalid row).
+    sources, receivers : ndarray, shape (N, 3)
+        The pairs (x, y, z) [m].
+    """
+
+    kind_names = KIND_NAMES
+
+    def __init__(self, profile, sources, receivers, table, kinds, converged, count):
+        self.profile = profile
+        self.sources = sources
+        self.receivers = receivers
+        k = max(int(count.max()) if count.size else 0, 1)
+        self._table = table[:, :k, :]
+        self.kind = kinds[:, :k]
+        self.converged = converged[:, :k]
+        self.count = count
+        self.invariant = self._table[:, :, es.COL_INVARIANT]
+        self.travel_time = self._table[:, :, es.COL_TIME]
+        self.path_length = self._table[:, :, es.COL_LENGTH]
+        self.launch_zenith = self._table[:, :, es.COL_LAUNCH]
+        self.arrival_zenith = self._table[:, :, es.COL_ARRIVAL]
+        self.turning_z = self._table[:, :, es.COL_TURNING]
+
+    def __len__(self):
+        return self.count.shape[0]
+
+    def __repr__(self):
+        return f"RaySet(pairs={len(self)}, rays={int(self.count.sum())})"
+
+    def kind_name(self, i, k):
+        """Name of the kind of ray k of pair i ("" where there is none)."""
+        return KIND_NAMES.get(int(self.kind[i, k]), "")
+
+    def __getitem__(self, i):
+        """The list of ``Ray`` objects of pair ``i``, sorted by travel time."""
+        n = len(self)
+        if not isinstance(i, (int, np.integer)) or not -n <= i < n:
+            raise IndexError(f"pair index must be an integer in [-{n}, {n}), got {i!r}")
+        i = int(i) % n
+        rays = []
+        for k in range(int(self.count[i])):
+            row = self._table[i, k]
+            turning = row[es.COL_TURNING]
+            rays.append(Ray(self.profile, self.sources[i].copy(), self.receivers[i].copy(),
+                            KIND_NAMES[int(self.kind[i, k])], float(row[es.COL_INVARIANT]),
+                            float(row[es.COL_TIME]), float(row[es.COL_LENGTH]),
+                            float(row[es.COL_LAUNCH]), float(row[es.COL_ARRIVAL]),
+                            None if math.isnan(turning) else float(turning),
+                            bool(self.converged[i, k]), float(row[es.COL_SLOWNESS])))
+        return rays

@@ -1,0 +1,140 @@
+"""The two entry points of the ray layer: ``find_rays`` and ``find_rays_many``.
+
+Both run the same compiled solver (``exponential_solver.solve_pairs``);
+``find_rays`` is ``find_rays_many`` on one pair.
+"""
+
+import warnings
+
+import numba
+import numpy as np
+
+from firnray.checks import point, points
+from firnray.errors import FirnrayWarning
+from firnray.medium.profiles import ExponentialProfile, IndexProfile
+from firnray.rays import exponential_solver as es
+from firnray.rays.results import RaySet
+
+
+def _check_profile(profile):
+    if not isinstance(profile, IndexProfile):
+        raise ValueError(f"profile must be an index profile (for example "
+                         f"firnray.ExponentialProfile or firnray.load_profile(...)), "
+                         f"got {profile!r}")
+    if not isinstance(profile, ExponentialProfile):
+        raise ValueError(f"profile kind {type(profile).__name__} is not supported by the "
+                         f"solver yet; expected an ExponentialProfile")
+
+
+def _check_workers(workers):
+    if workers is None:
+        return numba.config.NUMBA_NUM_THREADS
+    if (not isinstance(workers, (int, np.integer)) or isinstance(workers, bool)
+            or not 1 <= workers <= numba.config.NUMBA_NUM_THREADS):
+        raise ValueError(f"workers must be an integer from 1 to "
+                         f"{numba.config.NUMBA_NUM_THREADS} (the cores numba may use), "
+                         f"got {workers!r}")
+    return int(workers)
+
+
+def solve_arrays(profile, sources, receivers, workers=None):
+    """Run the solver on (N, 3) arrays of sources and receivers; returns a RaySet.
+
+    Rows with a NaN, coincident points or a point below the profile's valid
+    range give no ray (count 0); the last two emit one ``FirnrayWarning``.
+    """
+    n_threads = _check_workers(workers)
+    x = np.hypot(receivers[:, 0] - sources[:, 0], receivers[:, 1] - sources[:, 1])
+    zs = np.ascontiguousarray(sources[:, 2])
+    zr = np.ascontiguousarray(receivers[:, 2])
+    with np.errstate(invalid="ignore"):
+        same = (x == 0.0) & (zs == zr)
+        below = (zs < profile.z_min) | (zr < profile.z_min)
+    bad = same | below
+    if bad.any():
+        x = np.where(bad, np.nan, x)
+        warnings.warn(f"{int(same.sum())} pair(s) with coincident source and receiver and "
+                      f"{int(below.sum())} with a point below the profile's valid range "
+                      f"(z >= {profile.z_min} m) give no ray", FirnrayWarning, stacklevel=3)
+    table, kinds, conv, count = es.allocate(x.shape[0])
+    a, delta, s, n_air = profile.parameters
+    previous = numba.get_num_threads()
+    numba.set_num_threads(n_threads)
+    try:
+        es.solve_pairs(a, delta, s, n_air, x, zs, zr, table, kinds, conv, count)
+    finally:
+        numba.set_num_threads(previous)
+    if count.size and not conv[np.arange(conv.shape[1])[None, :] < count[:, None]].all():
+        warnings.warn("the root finder did not meet its tolerance for some rays; "
+                      "see RaySet.converged", FirnrayWarning, stacklevel=3)
+    return RaySet(profile, sources, receivers, table, kinds, conv, count)
+
+
+def find_rays_many(profile, sources, receivers, workers=None):
+    """Every ray for each of N source-receiver pairs.
+
+    Parameters
+    ----------
+    profile : IndexProfile
+        The index profile (``ExponentialProfile`` or ``load_profile(...)``).
+    sources, receivers : array_like, shape (N, 2) or (N, 3), or one point
+        Points (x, z) or (x, y, z) [m]; one of the two may be a single point,
+        broadcast against the other.  Rows with a NaN give no ray.
+    workers : int, optional
+        Number of threads (default: all cores numba may use).
+
+    Returns
+    -------
+    RaySet
+        (N, K) arrays, NaN-padded, sorted by travel time along K.
+
+    Raises
+    ------
+    ValueError
+        For a wrong array shape, mismatched lengths, an invalid profile or
+        ``workers``.
+    """
+    _check_profile(profile)
+    src, _ = points("sources", sources)
+    rcv, _ = points("receivers", receivers)
+    if src.shape[0] != rcv.shape[0]:
+        if src.shape[0] == 1:
+            src = np.repeat(src, rcv.shape[0], axis=0)
+        elif rcv.shape[0] == 1:
+            rcv = np.repeat(rcv, src.shape[0], axis=0)
+        else:
+            raise ValueError(f"sources and receivers must have the same number of rows or "
+                             f"one of them a single point; got {src.shape[0]} and "
+                             f"{rcv.shape[0]}")
+    return solve_arrays(profile, src, rcv, workers)
+
+
+def find_rays(profile, source, receiver):
+    """Every ray from ``source`` to ``receiver``, sorted by travel time.
+
+    Parameters
+    ----------
+    profile : IndexProfile
+        The index profile (``ExponentialProfile`` or ``load_profile(...)``).
+    source, receiver : sequence of float
+        Points (x, z) or (x, y, z) [m]; z is height (negative in the ice).
+
+    Returns
+    -------
+    list of Ray
+        Empty when the receiver lies in the shadow zone of the source.
+
+    Raises
+    ------
+    ValueError
+        For non-finite coordinates, coincident points, a point below the
+        profile's valid range, or an invalid profile.
+    """
+    _check_profile(profile)
+    src, _ = point("source", source)
+    rcv, _ = point("receiver", receiver)
+    if np.array_equal(src, rcv):
+        raise ValueError(f"source and receiver must differ, both are {tuple(source)!r}")
+    profile.check_height("source", src[2])
+    profile.check_height("receiver", rcv[2])
+    return solve_arrays(profile, src[None, :], rcv[None, :], workers=1)[0]
