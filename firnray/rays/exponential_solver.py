@@ -31,6 +31,7 @@ import math
 import numba
 import numpy as np
 
+from firnray.constants import SPEED_OF_LIGHT
 from firnray.rays.exponential_kernels import (
     KERNEL_OPTIONS,
     family_distance,
@@ -46,8 +47,7 @@ MAX_RAYS = 2
 #: Kind codes used in the result arrays (see ``firnray.rays.results``).
 DIRECT, REFRACTED, REFLECTED, TRANSMITTED = 0, 1, 2, 3
 
-#: Speed of light in vacuum [m/ns] (exact by the definition of the metre).
-C_M_PER_NS = 0.299792458
+C_M_PER_NS = SPEED_OF_LIGHT
 
 HALF_PI = 0.5 * math.pi
 MAX_ITER = 200

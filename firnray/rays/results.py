@@ -106,7 +106,8 @@ class Ray:
         ----------
         n_points : int, optional
             Number of points per segment (a segment ends at a turning point,
-            at the surface or at an end point), >= 2.
+            at the surface or at an end point), >= 2; about half are evenly
+            spaced in height, half crowd into the firn where the ray bends.
 
         Returns
         -------
@@ -135,12 +136,19 @@ def _segment_x(a, delta, s, b, q, ref, z1, z2, turning=False):
     return b * d / q
 
 
-def _rising(z1, z2, n, towards_top):
-    """Heights from z1 up to z2, denser towards z2 if ``towards_top`` (a turning point)."""
-    t = np.linspace(0.0, 1.0, n)
+def _rising(z1, z2, n, towards_top, s):
+    """Heights from z1 up to z2 for a path: about half evenly spaced in z and half
+    evenly spaced in exp(z/s) (so the firn, where the ray bends, is resolved);
+    with ``towards_top`` (a turning point at z2) both sets crowd towards z2."""
+    t = np.linspace(0.0, 1.0, max(n - n // 2, 2))
     if towards_top:
         t = 1.0 - (1.0 - t) ** 2
-    return z1 + (z2 - z1) * t
+    in_z = z1 + (z2 - z1) * t
+    u1, u2 = math.exp(z1 / s), math.exp(z2 / s)
+    in_u = s * np.log(u1 + (u2 - u1) * t[1:-1])
+    zz = np.unique(np.concatenate([in_z, np.clip(in_u, z1, z2)]))
+    zz[0], zz[-1] = z1, z2
+    return zz
 
 
 def ray_path(profile, source, receiver, kind, b, p, n_points):
@@ -156,7 +164,7 @@ def ray_path(profile, source, receiver, kind, b, p, n_points):
         else:
             q = math.sqrt(delta * (a + a - delta) + p * p)
             ref = (1.0, a - delta, p)
-            zz = _rising(z_ice, 0.0, n_points, False)
+            zz = _rising(z_ice, 0.0, n_points, False, s)
             xx = np.array([_segment_x(a, delta, s, b, q, ref, z_ice, z) for z in zz])
         x_surf = xx[-1]
         za = np.linspace(0.0, h, n_points)[1:]
@@ -184,7 +192,7 @@ def ray_path(profile, source, receiver, kind, b, p, n_points):
         q = math.sqrt(delta * u_hi * (a + n_hi) + p * p)
         ref = (u_hi, n_hi, p)
         if kind == "direct":
-            zz = _rising(z_lo, z_hi, n_points, False)
+            zz = _rising(z_lo, z_hi, n_points, False, s)
             xx = np.array([_segment_x(a, delta, s, b, q, ref, z_lo, z) for z in zz])
         else:
             if kind == "refracted":
@@ -193,10 +201,10 @@ def ray_path(profile, source, receiver, kind, b, p, n_points):
             else:
                 z_top = 0.0
                 turn = False
-            up = _rising(z_lo, z_top, n_points, turn)
+            up = _rising(z_lo, z_top, n_points, turn, s)
             x_up = np.array([_segment_x(a, delta, s, b, q, ref, z_lo, z) for z in up[:-1]])
             x_top = _segment_x(a, delta, s, b, q, ref, z_lo, z_top, turning=turn)
-            down = _rising(z_hi, z_top, n_points, turn)[::-1]
+            down = _rising(z_hi, z_top, n_points, turn, s)[::-1]
             x_dn = np.array([_segment_x(a, delta, s, b, q, ref, z, z_top, turning=turn)
                              for z in down[1:]])
             xx = np.concatenate([x_up, [x_top], x_top + x_dn])
