@@ -20,27 +20,41 @@ C = 0.299792458  # m/ns, SI definition
 
 
 def make_index(n_deep, n_surface, scale_depth, n_air=1.0):
+    """(n_ice(z), dn_ice/dz(z), n_air).  Above z = 0 the firn index is continued
+    as the constant n_surface, so that the integrator never steps across a jump
+    in n and a ray that reaches the surface keeps going up until the crossing
+    event stops it; the side of the surface a ray is on is tracked by ``shoot``."""
     d = n_deep - n_surface
 
     def n(z):
-        return n_air if z > 0 else n_deep - d * math.exp(z / scale_depth)
+        return n_deep - d * math.exp(min(z, 0.0) / scale_depth)
 
     def dndz(z):
-        return 0.0 if z > 0 else -d / scale_depth * math.exp(z / scale_depth)
+        return 0.0 if z > 0.0 else -d / scale_depth * math.exp(z / scale_depth)
 
-    return n, dndz
+    return n, dndz, n_air
 
 
-def shoot(index, source_z, launch_zenith_deg, x_end, bounce=True, rtol=1e-12, atol=1e-10):
+def shoot(index, source_z, invariant, upward, x_end, bounce=True, rtol=1e-12, atol=1e-10):
     """Trace a ray from (0, source_z) until it reaches horizontal distance x_end.
 
-    Returns (z at x_end [m], travel time [ns], path length [m]) or None if the
-    ray never gets there.
+    The ray starts with horizontal slowness ``invariant`` (the Snell
+    invariant) going up if ``upward``; at the surface it is reflected if
+    ``bounce``, else transmitted.  Returns (z at x_end [m], travel time [ns],
+    path length [m]) or None if the ray never gets there.
     """
-    n, dndz = index
-    theta = math.radians(launch_zenith_deg)
+    n_ice, dndz_ice, n_air = index
+    side = {"air": source_z > 0}
+
+    def n(z):
+        return n_air if side["air"] else n_ice(z)
+
+    def dndz(z):
+        return 0.0 if side["air"] else dndz_ice(z)
+
     n0 = n(source_z)
-    state = np.array([0.0, source_z, n0 * math.sin(theta), n0 * math.cos(theta), 0.0, 0.0])
+    kz = math.sqrt(max(n0 * n0 - invariant * invariant, 0.0))
+    state = np.array([0.0, source_z, invariant, kz if upward else -kz, 0.0, 0.0])
 
     def rhs(s, y):
         nz = n(y[1])
@@ -66,14 +80,16 @@ def shoot(index, source_z, launch_zenith_deg, x_end, bounce=True, rtol=1e-12, at
         y = sol.y_events[1][0].copy()
         kx = y[2]
         going_up = y[3] > 0
-        if going_up and bounce:
-            y[3] = -y[3]          # reflection off the surface from below
-        elif going_up:
-            n_top = n(1.0)
-            y[3] = math.sqrt(n_top ** 2 - kx ** 2)
-        else:
-            n_bot = n(0.0)
-            y[3] = -math.sqrt(n_bot ** 2 - kx ** 2)
-        y[1] = 1e-12 if (going_up and not bounce) else -1e-12
+        if bounce:
+            y[3] = -y[3]          # reflection off the surface
+            y[1] = -1e-12 if going_up else 1e-12
+        elif going_up:            # transmission into the air
+            side["air"] = True
+            y[3] = math.sqrt(n_air ** 2 - kx ** 2)
+            y[1] = 1e-12
+        else:                     # transmission into the ice
+            side["air"] = False
+            y[3] = -math.sqrt(n_ice(0.0) ** 2 - kx ** 2)
+            y[1] = -1e-12
         state = y
     return None

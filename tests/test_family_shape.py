@@ -25,13 +25,11 @@ def test_single_maximum_and_peak_finder(a, ns, s):
         z1 = -rng.uniform(0.0, 2000.0) * rng.choice([1.0, 0.02])
         z2 = -rng.uniform(0.05, 200.0) * rng.choice([1.0, 0.01])
         zlo, zhi = min(z1, z2), max(z1, z2)
-        ulo, nlo = ek.level_state(a, delta, s, zlo)
-        uhi, nhi = ek.level_state(a, delta, s, zhi)
-        args = (a, delta, s, zlo, ulo, nlo, zhi, uhi, nhi)
-        xs = np.array([ek.family_distance(True, p, *args)[0] for p in psis])
+        pair = ek.pair_state(a, delta, s, zlo, zhi)
+        xs = np.array([ek.family_distance(True, p, pair)[0] for p in psis])
         d = np.diff(xs)
         sign_changes = np.count_nonzero(np.diff(np.sign(d[np.abs(d) > 1e-9 * xs.max()])))
         assert sign_changes <= 1, (zlo, zhi)
-        psi_peak, x_max = es.up_family_peak(*args)
+        psi_peak, x_max = es.up_family_peak(pair)
         assert x_max >= xs.max() * (1 - 1e-12), (zlo, zhi)
-        assert ek.family_distance(True, 0.0, *args)[1] > 0.0
+        assert ek.family_distance(True, 0.0, pair)[1] > 0.0

@@ -40,21 +40,12 @@ def quad_segment(b, z1, z2, turning=False):
         return float(b * integ(0)), float(integ(1)), float(integ(2))
 
 
-def closed_segment(fn, b, p_ref, z_ref, z1, z2=None):
+def closed_segment(compiled, b, p_ref, z_ref, z1, z2=None):
+    fn = ek.partial_segment if compiled else ek.partial_segment.py_func
     u_ref, n_ref = ek.level_state.py_func(A, DELTA, S, z_ref)
-    q = math.sqrt(DELTA * u_ref * (A + n_ref) + p_ref * p_ref)
-    u1, n1 = ek.level_state.py_func(A, DELTA, S, z1)
-    w1 = math.sqrt(ek.slowness_sq.py_func(DELTA, u_ref, n_ref, u1, n1, p_ref))
     if z2 is None:
-        d, lh, dw = fn(A, DELTA, S, b, q, z1, u1, n1, w1)
-    else:
-        u2, n2 = ek.level_state.py_func(A, DELTA, S, z2)
-        w2 = math.sqrt(max(ek.slowness_sq.py_func(DELTA, u_ref, n_ref, u2, n2, p_ref), 0.0))
-        d, lh, dw = fn(A, DELTA, S, b, q, z1, u1, n1, w1, z2, u2, n2, w2)
-    x = b * d / q
-    length = S * lh + A * d / q
-    ct = S * dw + A * S * lh + q * d + b * x
-    return x, length, ct
+        return fn(A, DELTA, S, b, p_ref, u_ref, n_ref, z1, 0.0, True)
+    return fn(A, DELTA, S, b, p_ref, u_ref, n_ref, z1, z2, False)
 
 
 SEGMENTS = [  # (z1, z2, elevation at z2 [rad])
@@ -68,8 +59,7 @@ SEGMENTS = [  # (z1, z2, elevation at z2 [rad])
 def test_segment_against_quadrature(z1, z2, psi, compiled):
     u2, n2 = ek.level_state.py_func(A, DELTA, S, z2)
     b, p = n2 * math.cos(psi), n2 * math.sin(psi)
-    fn = ek.segment_terms if compiled else ek.segment_terms.py_func
-    x, length, ct = closed_segment(fn, b, p, z2, z1, z2)
+    x, length, ct = closed_segment(compiled, b, p, z2, z1, z2)
     xq, lq, ctq = quad_segment(b, z1, z2)
     assert x == pytest.approx(xq, rel=1e-10, abs=1e-9)
     assert length == pytest.approx(lq, rel=1e-10, abs=1e-9)
@@ -82,8 +72,7 @@ def test_segment_against_quadrature(z1, z2, psi, compiled):
 def test_turning_segment_against_quadrature(z1, b, compiled):
     u1, n1 = ek.level_state.py_func(A, DELTA, S, z1)
     p = math.sqrt(n1 * n1 - b * b)
-    fn = ek.turning_terms if compiled else ek.turning_terms.py_func
-    x, length, ct = closed_segment(fn, b, p, z1, z1)
+    x, length, ct = closed_segment(compiled, b, p, z1, z1)
     xq, lq, ctq = quad_segment(b, z1, None, turning=True)
     assert x == pytest.approx(xq, rel=1e-10)
     assert length == pytest.approx(lq, rel=1e-10)
@@ -95,15 +84,13 @@ def test_turning_segment_against_quadrature(z1, b, compiled):
 def test_slope_against_central_difference(up, psi):
     """dX/dpsi from the closed-form derivative vs a mpmath-precision central difference."""
     zlo, zhi = -600.0, -100.0
-    ulo, nlo = ek.level_state(A, DELTA, S, zlo)
-    uhi, nhi = ek.level_state(A, DELTA, S, zhi)
-    args = (A, DELTA, S, zlo, ulo, nlo, zhi, uhi, nhi)
-    x, dx = ek.family_distance(up, psi, *args)
-    x_py, dx_py = ek.family_distance.py_func(up, psi, *args)
+    pair = ek.pair_state(A, DELTA, S, zlo, zhi)
+    x, dx = ek.family_distance(up, psi, pair)
+    x_py, dx_py = ek.family_distance.py_func(up, psi, pair)
     assert x == x_py and dx == pytest.approx(dx_py, rel=1e-14)
     h = min(1e-6, 0.5 * psi)
-    xp, _ = ek.family_distance(up, psi + h, *args)
-    xm, _ = ek.family_distance(up, psi - h, *args)
+    xp, _ = ek.family_distance(up, psi + h, pair)
+    xm, _ = ek.family_distance(up, psi - h, pair)
     assert dx == pytest.approx((xp - xm) / (2 * h), rel=1e-5)
 
 
@@ -116,7 +103,7 @@ def test_deep_segment_keeps_precision():
     z1, z2, psi = -2100.0, -2000.0, 0.01
     u2, n2 = ek.level_state(A, DELTA, S, z2)
     b, p = n2 * math.cos(psi), n2 * math.sin(psi)
-    x, length, ct = closed_segment(ek.segment_terms, b, p, z2, z1, z2)
+    x, length, ct = closed_segment(True, b, p, z2, z1, z2)
     assert x == pytest.approx(100.0 / math.tan(psi), rel=1e-12)
     assert length == pytest.approx(100.0 / math.sin(psi), rel=1e-12)
     assert ct == pytest.approx(A * 100.0 / math.sin(psi), rel=1e-12)

@@ -62,14 +62,10 @@ def test_snell_invariant_along_path(prof, z_src, z_rcv, x):
 
 def _horizon_and_grazing(prof, z_lo, z_hi):
     a, delta, s, _ = prof.parameters
-    ulo, nlo = ek.level_state(a, delta, s, z_lo)
-    uhi, nhi = ek.level_state(a, delta, s, z_hi)
-    args = (a, delta, s, z_lo, ulo, nlo, z_hi, uhi, nhi)
-    x_h = ek.family_distance(False, 0.0, *args)[0]
-    ns = a - delta
-    psi_s = math.atan2(math.sqrt(delta * (1 - uhi) * (nhi + ns)), ns)
-    x_s = ek.family_distance(True, psi_s, *args)[0]
-    peak = es.up_family_peak(*args)
+    pair = ek.pair_state(a, delta, s, z_lo, z_hi)
+    x_h = ek.family_distance(False, 0.0, pair)[0]
+    x_s = ek.family_distance(True, es.grazing_angle(pair), pair)[0]
+    peak = es.up_family_peak(pair)
     return x_h, x_s, peak[1]
 
 

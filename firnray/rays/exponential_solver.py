@@ -34,10 +34,11 @@ import numpy as np
 from firnray.constants import SPEED_OF_LIGHT
 from firnray.rays.exponential_kernels import (
     KERNEL_OPTIONS,
+    family_d,
     family_distance,
     family_sums,
     kernel,
-    level_state,
+    pair_state,
     turning_height,
 )
 
@@ -58,18 +59,18 @@ N_COLS = 7
 
 
 @kernel
-def transmitted_distance(phi, h, n_air, a, delta, s, z_lo, u_lo, n_lo):
+def transmitted_distance(phi, h, n_air, pair):
     """X [m] and dX/dphi [m/rad] of the air-ice ray at air zenith phi [rad].
 
     X = h tan(phi) + X_ice(b), b = n_air sin(phi); the ice part is the direct
-    segment from z_lo up to the surface, with vertical slowness
-    p_s = sqrt(n_s^2 - b^2) at the surface.
+    segment from the ice point up to the surface (``pair`` has the surface as
+    its upper level), with vertical slowness p_s = sqrt(n_s^2 - b^2) there.
     """
+    a = pair[0]
+    n_s = pair[8]
     b = n_air * math.sin(phi)
-    n_s = a - delta
     p = math.sqrt((n_s - b) * (n_s + b))
-    q, sd, sh, sw, slope, w_lo, code = family_sums(False, b, p, a, delta, s, z_lo, u_lo,
-                                                   n_lo, 0.0, 1.0, n_s)
+    q, sd, slope, w_lo, w0, code = family_d(False, b, p, pair)
     cphi = math.cos(phi)
     x = h * math.tan(phi) + b * sd / q
     dx_db = sd * a * a / (q * q * q) - b * slope / (q * p)
@@ -77,20 +78,20 @@ def transmitted_distance(phi, h, n_air, a, delta, s, z_lo, u_lo, n_lo):
 
 
 @kernel
-def evaluate(mode, t, h, n_air, a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi):
+def evaluate(mode, t, h, n_air, pair):
     """Distance and slope of family ``mode`` (0 direct, 1 up-going, 2 transmitted)."""
     if mode == 2:
-        return transmitted_distance(t, h, n_air, a, delta, s, z_lo, u_lo, n_lo)
-    return family_distance(mode == 1, t, a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
+        return transmitted_distance(t, h, n_air, pair)
+    return family_distance(mode == 1, t, pair)
 
 
 @kernel
-def polish_root(mode, x_target, t_a, f_a, t_b, f_b, h, n_air, a, delta, s,
-                z_lo, u_lo, n_lo, z_hi, u_hi, n_hi):
+def polish_root(mode, x_target, t_a, f_a, t_b, f_b, t_start, h, n_air, pair):
     """Root of X(t) = x_target in the bracket [t_a, t_b] (f_a, f_b of opposite sign).
 
-    Newton steps on the closed-form slope, replaced by bisection whenever a
-    step would leave the bracket or fails to halve it.
+    Newton steps on the closed-form slope from ``t_start`` (the bracket's
+    middle if it lies outside), replaced by bisection whenever a step would
+    leave the bracket or fails to halve it.
 
     Returns
     -------
@@ -110,10 +111,12 @@ def polish_root(mode, x_target, t_a, f_a, t_b, f_b, h, n_air, a, delta, s,
     else:
         lo, hi = t_b, t_a
     tol = 1e-12 * (1.0 + x_target)
-    t = 0.5 * (t_a + t_b)
+    t = t_start
+    if not (t - lo) * (t - hi) < 0.0:
+        t = 0.5 * (t_a + t_b)
     width_old = abs(t_b - t_a)
     width = width_old
-    x, dx = evaluate(mode, t, h, n_air, a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
+    x, dx = evaluate(mode, t, h, n_air, pair)
     for _ in range(MAX_ITER):
         f = x - x_target
         if abs(f) <= tol:
@@ -134,12 +137,22 @@ def polish_root(mode, x_target, t_a, f_a, t_b, f_b, h, n_air, a, delta, s,
         if t_new == t or abs(hi - lo) <= 4e-16 * max(abs(lo), abs(hi)) + 1e-300:
             return t_new, True
         t = t_new
-        x, dx = evaluate(mode, t, h, n_air, a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
+        x, dx = evaluate(mode, t, h, n_air, pair)
     return t, False
 
 
 @kernel
-def up_family_peak(a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi):
+def grazing_angle(pair):
+    """Elevation psi_s [rad] at z_hi of the up-going ray that grazes the surface (b = n_s).
+
+    p_s^2 = n_hi^2 - n_s^2 = -dn_hs (n_hi + n_s).
+    """
+    n_s = pair[0] - pair[1]
+    return math.atan2(math.sqrt(max(-pair[11] * (pair[8] + n_s), 0.0)), n_s)
+
+
+@kernel
+def up_family_peak(pair):
     """Angle psi* [rad] and distance X_max [m] of the largest reach of the up-going family.
 
     dX_u/dpsi > 0 at psi = 0; if it is still >= 0 just below the surface-
@@ -147,18 +160,16 @@ def up_family_peak(a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi):
     side falls with infinite slope); otherwise the zero of dX_u/dpsi in
     (0, psi_s) is found by the Illinois variant of regula falsi.
     """
-    n_s = a - delta
-    p_s = math.sqrt(max(delta * (1.0 - u_hi) * (n_hi + n_s), 0.0))
-    psi_s = math.atan2(p_s, n_s)
+    psi_s = grazing_angle(pair)
     t_b = psi_s * (1.0 - 1e-13)
-    x_b, g_b = family_distance(True, t_b, a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
+    x_b, g_b = family_distance(True, t_b, pair)
     if g_b >= 0.0:
-        x_s, g_s = family_distance(True, psi_s, a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
+        x_s, g_s = family_distance(True, psi_s, pair)
         if x_s >= x_b:
             return psi_s, x_s
         return t_b, x_b
     t_a = 0.0
-    x_a, g_a = family_distance(True, t_a, a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
+    x_a, g_a = family_distance(True, t_a, pair)
     side = 0
     t = t_a
     x = x_a
@@ -166,7 +177,7 @@ def up_family_peak(a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi):
         t = (t_a * g_b - t_b * g_a) / (g_b - g_a)
         if not (t > t_a and t < t_b):
             t = 0.5 * (t_a + t_b)
-        x, g = family_distance(True, t, a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
+        x, g = family_distance(True, t, pair)
         if g == 0.0 or (t_b - t_a) <= 1e-15 * t_b:
             break
         if g > 0.0:
@@ -199,13 +210,13 @@ def store_ray(out, kinds, conv, i, k, code, b, c_time, length, launch, arrival,
 
 
 @kernel
-def store_ice_ray(out, kinds, conv, i, k, up, psi, converged, swapped,
-                  a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi):
+def store_ice_ray(out, kinds, conv, i, k, up, psi, converged, swapped, pair):
     """Evaluate the ray of a family at psi and write it to row i, slot k."""
+    a, delta, s = pair[0], pair[1], pair[2]
+    n_hi = pair[8]
     b = n_hi * math.cos(psi)
     p = n_hi * math.sin(psi)
-    q, sd, sh, sw, slope, w_lo, code = family_sums(up, b, p, a, delta, s, z_lo, u_lo,
-                                                   n_lo, z_hi, u_hi, n_hi)
+    q, sd, sh, sw, slope, w_lo, code = family_sums(up, b, p, pair)
     x = b * sd / q
     length = s * sh + a * sd / q
     c_time = s * sw + a * s * sh + q * sd + b * x
@@ -265,40 +276,38 @@ def solve_ice_pair(out, kinds, conv, i, a, delta, s, x_target, z_src, z_rcv):
         z_lo, z_hi = z_rcv, z_src
     else:
         z_lo, z_hi = z_src, z_rcv
-    u_lo, n_lo = level_state(a, delta, s, z_lo)
-    u_hi, n_hi = level_state(a, delta, s, z_hi)
-    x_h, g_h = family_distance(False, 0.0, a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
+    pair = pair_state(a, delta, s, z_lo, z_hi)
+    x_h, g_h = family_distance(False, 0.0, pair)
     k = 0
     if x_target < x_h and z_lo < z_hi:
-        psi, ok = polish_root(0, x_target, 0.0, x_h - x_target, HALF_PI, -x_target, 0.0, 1.0,
-                              a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
-        store_ice_ray(out, kinds, conv, i, k, False, psi, ok, swapped,
-                      a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
+        # start from the elevation of the straight chord
+        guess = math.atan2(z_hi - z_lo, x_target)
+        psi, ok = polish_root(0, x_target, 0.0, x_h - x_target, HALF_PI, -x_target, guess,
+                              0.0, 1.0, pair)
+        store_ice_ray(out, kinds, conv, i, k, False, psi, ok, swapped, pair)
         k += 1
     if z_hi >= 0.0:
         return k
     if x_target < x_h:
-        psi, ok = polish_root(1, x_target, 0.0, x_h - x_target, HALF_PI, -x_target, 0.0, 1.0,
-                              a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
-        store_ice_ray(out, kinds, conv, i, k, True, psi, ok, swapped,
-                      a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
+        # start from the straight ray to the image of z_hi above the surface
+        guess = math.atan2(-z_lo - z_hi, x_target)
+        psi, ok = polish_root(1, x_target, 0.0, x_h - x_target, HALF_PI, -x_target, guess,
+                              0.0, 1.0, pair)
+        store_ice_ray(out, kinds, conv, i, k, True, psi, ok, swapped, pair)
         return k + 1
-    psi_peak, x_max = up_family_peak(a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
+    psi_peak, x_max = up_family_peak(pair)
     f_peak = x_max - x_target
     if f_peak < 0.0:
         return k
     if f_peak <= 1e-12 * (1.0 + x_target):
-        store_ice_ray(out, kinds, conv, i, k, True, psi_peak, True, swapped,
-                      a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
+        store_ice_ray(out, kinds, conv, i, k, True, psi_peak, True, swapped, pair)
         return k + 1
-    psi, ok = polish_root(1, x_target, 0.0, x_h - x_target, psi_peak, f_peak, 0.0, 1.0,
-                          a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
-    store_ice_ray(out, kinds, conv, i, k, True, psi, ok, swapped,
-                  a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
-    psi, ok = polish_root(1, x_target, psi_peak, f_peak, HALF_PI, -x_target, 0.0, 1.0,
-                          a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
-    store_ice_ray(out, kinds, conv, i, k + 1, True, psi, ok, swapped,
-                  a, delta, s, z_lo, u_lo, n_lo, z_hi, u_hi, n_hi)
+    psi, ok = polish_root(1, x_target, 0.0, x_h - x_target, psi_peak, f_peak, -1.0,
+                          0.0, 1.0, pair)
+    store_ice_ray(out, kinds, conv, i, k, True, psi, ok, swapped, pair)
+    psi, ok = polish_root(1, x_target, psi_peak, f_peak, HALF_PI, -x_target, -1.0,
+                          0.0, 1.0, pair)
+    store_ice_ray(out, kinds, conv, i, k + 1, True, psi, ok, swapped, pair)
     return k + 2
 
 
@@ -310,16 +319,15 @@ def solve_air_ice_pair(out, kinds, conv, i, a, delta, s, n_air, x_target, z_src,
         h, z_lo = z_src, z_rcv
     else:
         h, z_lo = z_rcv, z_src
-    u_lo, n_lo = level_state(a, delta, s, z_lo)
+    pair = pair_state(a, delta, s, z_lo, 0.0)
     phi_top = math.atan2(x_target, h)
-    x_top, g_top = transmitted_distance(phi_top, h, n_air, a, delta, s, z_lo, u_lo, n_lo)
-    phi, ok = polish_root(2, x_target, 0.0, -x_target, phi_top, x_top - x_target, h, n_air,
-                          a, delta, s, z_lo, u_lo, n_lo, 0.0, 1.0, a - delta)
+    x_top, g_top = transmitted_distance(phi_top, h, n_air, pair)
+    phi, ok = polish_root(2, x_target, 0.0, -x_target, phi_top, x_top - x_target, -1.0,
+                          h, n_air, pair)
     b = n_air * math.sin(phi)
     n_s = a - delta
     p = math.sqrt((n_s - b) * (n_s + b))
-    q, sd, sh, sw, slope, w_lo, code = family_sums(False, b, p, a, delta, s, z_lo, u_lo,
-                                                   n_lo, 0.0, 1.0, n_s)
+    q, sd, sh, sw, slope, w_lo, code = family_sums(False, b, p, pair)
     x_ice = b * sd / q
     air_length = h / math.cos(phi)
     length = s * sh + a * sd / q + air_length

@@ -123,17 +123,9 @@ class Ray:
 
 
 def _segment_x(a, delta, s, b, q, ref, z1, z2, turning=False):
-    """Horizontal distance [m] of the monotone segment z1 -> z2 (z1 < z2) at invariant b."""
+    """Horizontal distance [m] of the monotone piece z1 -> z2 (z1 < z2) at invariant b."""
     u_ref, n_ref, p_ref = ref
-    u1, n1 = ek.level_state(a, delta, s, z1)
-    w1 = math.sqrt(max(ek.slowness_sq(delta, u_ref, n_ref, u1, n1, p_ref), 0.0))
-    if turning:
-        d, _, _ = ek.turning_terms(a, delta, s, b, q, z1, u1, n1, w1)
-    else:
-        u2, n2 = ek.level_state(a, delta, s, z2)
-        w2 = math.sqrt(max(ek.slowness_sq(delta, u_ref, n_ref, u2, n2, p_ref), 0.0))
-        d, _, _ = ek.segment_terms(a, delta, s, b, q, z1, u1, n1, w1, z2, u2, n2, w2)
-    return b * d / q
+    return ek.partial_segment(a, delta, s, b, p_ref, u_ref, n_ref, z1, z2, turning)[0]
 
 
 def _rising(z1, z2, n, towards_top, s):

@@ -8,46 +8,51 @@ for each ray its kind, Snell invariant ``b = n(z) sin(zenith)``, travel time
 [ns], path length [m], launch and arrival zenith [deg] and turning height [m]
 to ``tests/data/reference_rays.json``.  For two points in the ice it also
 stores the direct-horizon distance X_h (the direct ray that arrives
-horizontally at the shallower point) and the maximum horizontal reach X_max of
-the up-going family (rays that rise above the shallower point, turn in the
-firn or bounce off the surface, and come back down to it).
+horizontally at the shallower point) and the maximum horizontal reach X_max
+of the up-going family (rays that rise above the shallower point, turn in the
+firn or bounce off the surface, and come back down to it), with the interior
+extrema of that family.
 
 How
 ---
-Everything is evaluated with mpmath at ``mp.dps`` = 32 significant digits.
+Everything reported is evaluated with mpmath at ``mp.dps`` = 32 digits.
+
+* Invariant.  A ray is carried by its gap a = n_deep - b rather than by b
+  itself: for deep points n_deep - n(z) = (n_deep - n_surface) exp(z/h) is
+  far below the resolution of b, while a keeps all its digits.
 
 * Ray integrals.  Over a monotone stretch of firn the horizontal distance,
   path length and travel time are X = int b/sqrt(n^2-b^2) dz,
   L = int n/sqrt(n^2-b^2) dz and T = (1/c) int n^2/sqrt(n^2-b^2) dz.  With
-  the exponential profile n(z) = n_deep - (n_deep-n_surface) exp(z/h) each
-  invariant b < n_deep has a (possibly virtual, i.e. above the surface)
-  turning height z_t where the continued profile equals b.  Writing
-  s = z_t - z one has exactly n - b = (n_deep - b)(1 - exp(-s/h)), so the
-  difference n - b never suffers cancellation, and the substitution s = t^2
-  turns the inverse-square-root turning-point singularity into a smooth,
-  bounded integrand.  The integrals in t are evaluated with tanh-sinh
-  quadrature (``mpmath.quad``), split at s = h, 4h, 16h, ...; the error
-  estimate of every quadrature is checked.  Air stretches are straight lines
-  added in closed form (time n_air * length / c); the uniform profile
-  (n_surface == n_deep) is a piecewise straight-line problem and is done in
-  closed form as well.
+  n(z) = n_deep - (n_deep - n_surface) exp(z/h) every ray has a (possibly
+  virtual, i.e. above the surface) turning height z_t = h log(a/(n_deep -
+  n_surface)).  With s = z_t - z one has exactly n - b = a (1 - exp(-s/h)),
+  so n - b suffers no cancellation, and the substitution s = t^2 turns the
+  inverse-square-root turning-point singularity into a smooth bounded
+  integrand.  The t integrals are evaluated by tanh-sinh quadrature
+  (``mpmath.quad``), split at s = h, 4h, 16h, ...; the error estimate of
+  every quadrature is checked.  Air stretches are straight lines added in
+  closed form (time n_air * length / c).  The uniform profile
+  (n_surface == n_deep) has straight rays only and is done in closed form.
 
-* Root finding.  Every family of rays is parametrised by an angle that makes
-  its horizontal distance X smooth and (near the ends) linear in the
-  parameter: the zenith at the shallower point for the direct rays and the
-  refracted rays, the zenith at the surface for the surface-reflected rays,
-  the zenith in the air for transmitted rays.  The up-going family is split
-  at the grazing ray b = n_surface (turning exactly at the surface), where
-  X(b) has a kink.  Each family is scanned densely, every interior extremum
-  of the scanned X is located by golden-section search, and on every
-  monotone piece a sign change of X - X_target is refined to full precision
-  by a safeguarded Illinois (regula falsi) iteration that never leaves its
-  bracket.  The refined rays are re-integrated and checked to hit the
+* Root finding.  Each family of rays is parametrised so that its horizontal
+  distance X is smooth and, near the ends, linear in the parameter: direct
+  rays by the zenith at the shallower point, refracted rays by
+  sigma = sqrt(1 - z_t / z_hi) (turning height z_t between the shallower
+  point z_hi and the surface), surface-reflected rays by the zenith at the
+  surface, transmitted rays by the zenith in the air.  The up-going family is
+  thereby split at the grazing ray b = n_surface, where X has a kink.  Each
+  family is scanned densely (a double-precision Gauss-Legendre version of
+  the same integrals, used only to place brackets), every interior extremum
+  of the scan is refined to full precision, and on every monotone piece
+  between extrema a sign change of X - X_target is refined by a safeguarded
+  Illinois (regula falsi) iteration with mpmath, which never leaves its
+  bracket.  Each ray found is integrated again and checked to hit the
   receiver.
 
 This script shares no code with the firnray package: it imports nothing from
-it and re-derives everything from the ray equations.  It only needs mpmath
-and pyyaml.
+it and re-derives everything from the ray equations.  It needs only mpmath,
+numpy and pyyaml.
 
 Usage: python tests/generators/reference_rays.py [--catalogue PATH]
        [--output PATH] [--dps N] [--scan N] [--only NAME ...]
@@ -80,7 +85,11 @@ class QuadratureError(RuntimeError):
 
 def to_mp(value):
     """Decimal value of a YAML number as an mpf (1.78 means 1.78 exactly)."""
-    return mpf(repr(float(value))) if not isinstance(value, str) else mpf(value)
+    return mpf(repr(float(value)))
+
+
+def eps_tol(margin):
+    return mpf(10) ** (-(mp.dps - margin))
 
 
 class Medium:
@@ -95,19 +104,25 @@ class Medium:
         self.uniform = self.contrast == 0
         if self.contrast < 0 or self.scale <= 0:
             raise ValueError("profile must have n_deep >= n_surface, scale > 0")
+        if self.n_air >= self.n_surface:
+            raise ValueError("n_air must be below n_surface")
+
+    def gap_at(self, z):
+        """n_deep - n(z) for z <= 0, without cancellation."""
+        return self.contrast * mp.exp(z / self.scale)
 
     def index(self, z):
         if z > 0:
             return self.n_air
-        return self.n_deep - self.contrast * mp.exp(z / self.scale)
+        return self.n_deep - self.gap_at(z)
 
-    def turning_height(self, b):
-        """Height where the continued profile equals b (above 0 if b < n_s)."""
-        return self.scale * mp.log((self.n_deep - b) / self.contrast)
+    def turning_height(self, a):
+        """Height where the continued profile equals b = n_deep - a."""
+        return self.scale * mp.log(a / self.contrast)
 
 
 # ---------------------------------------------------------------------------
-# ray integrals over one monotone firn stretch
+# ray integrals over one monotone firn stretch (full precision)
 # ---------------------------------------------------------------------------
 
 def _split_points(t_lo, t_hi, scale):
@@ -124,68 +139,64 @@ def _split_points(t_lo, t_hi, scale):
     return pts
 
 
-def firn_stretch(medium, b, z_bottom, z_top, full=True):
-    """Integrals over z_bottom <= z <= z_top (<= 0) for invariant b.
+def firn_stretch(medium, a, z_bottom, z_top, full=True):
+    """Integrals over z_bottom <= z <= z_top (<= 0) for the ray of gap a.
 
-    z_top None means: up to the turning height of b (which must then lie in
-    the ice).  Returns (X, L, cT) with cT = c * travel time, or X alone if
-    not full.  z_top must not lie above the turning height of b.
+    a = n_deep - b.  z_top None means: up to the turning height of the ray
+    (which must lie in the ice).  Returns (X, L, cT), cT = c * travel time,
+    or X alone if not full.
     """
     if z_top is not None and z_top == z_bottom:
         return (mpf(0), mpf(0), mpf(0)) if full else mpf(0)
+    nd = medium.n_deep
+    b = nd - a
     if medium.uniform:
         if z_top is None:
             raise ValueError("no turning point in a uniform medium")
-        n = medium.n_deep
-        root = mp.sqrt((n - b) * (n + b))
+        n = nd
+        root = mp.sqrt(a * (n + b))
         dz = z_top - z_bottom
         if full:
             return (dz * b / root, dz * n / root, dz * n * n / root)
         return dz * b / root
     h = medium.scale
-    nd = medium.n_deep
 
     def depth_below_turning(z):
-        # s = z_t - z = h log((n_deep - b) / (n_deep - n(z))), written so that
-        # b == n(z) gives exactly 0
-        nz = medium.index(z)
-        return h * mp.log1p((nz - b) / (nd - nz))
+        # s = z_t - z = h log(a / (n_deep - n(z))); exactly 0 when b == n(z)
+        return h * mp.log(a / medium.gap_at(z))
 
     if z_top is None:
         s_top = mpf(0)
     else:
         s_top = depth_below_turning(z_top)
         if s_top < 0:
-            if s_top < -mpf(10) ** (-(mp.dps - 8)):
+            if s_top < -eps_tol(8):
                 raise ValueError("stretch reaches above the turning height")
             s_top = mpf(0)
     s_bot = depth_below_turning(z_bottom)
     t_lo = mp.sqrt(s_top)
     t_hi = mp.sqrt(s_bot)
-    a = nd - b
     two_sqrt_h = 2 * mp.sqrt(h)
 
     def parts(t):
+        # dz = 2 t dt and n - b = a (1 - exp(-u)), u = t^2 / h
         u = t * t / h
-        if u == 0:
-            ratio = mpf(1)
-        else:
-            ratio = u / (-mp.expm1(-u))
+        ratio = mpf(1) if u == 0 else u / (-mp.expm1(-u))
         n = nd - a * mp.exp(-u)
         weight = two_sqrt_h * mp.sqrt(ratio / (a * (n + b)))
         return n, weight
 
     pts = _split_points(t_lo, t_hi, h)
-    tol = mpf(10) ** (-(mp.dps - 6))
+    tol = eps_tol(6)
 
-    def integrate(f, scale_of_result):
+    def integrate(f):
         val, err = mp.quad(f, pts, error=True, method="tanh-sinh")
-        if err > tol * (abs(val) + scale_of_result):
+        # relative, with an absolute floor of 1e-26 (m or m of light path)
+        if err > tol * (abs(val) + 1):
             raise QuadratureError("tanh-sinh error estimate %s for %s" % (err, val))
         return val
 
-    ref = mpf(1)  # absolute floor: 1e-26 m or ns is far below any need
-    x = integrate(lambda t: b * parts(t)[1], ref)
+    x = integrate(lambda t: b * parts(t)[1])
     if not full:
         return x
 
@@ -197,89 +208,45 @@ def firn_stretch(medium, b, z_bottom, z_top, full=True):
         n, w = parts(t)
         return n * n * w
 
-    length = integrate(f_len, ref)
-    ctime = integrate(f_time, ref)
-    return (x, length, ctime)
+    return (x, integrate(f_len), integrate(f_time))
 
 
 # ---------------------------------------------------------------------------
-# families of rays between two points in the ice
-# ---------------------------------------------------------------------------
-
-class IcePair:
-    """Ray families between heights z_lo <= z_hi <= 0."""
-
-    def __init__(self, medium, z_lo, z_hi):
-        self.m = medium
-        self.z_lo = z_lo
-        self.z_hi = z_hi
-        self.n_hi = medium.index(z_hi)
-        self.equal = z_lo == z_hi
-        ns = medium.n_surface
-        # zenith at z_hi of the grazing ray (turning exactly at the surface)
-        self.phi_graze = mp.asin(ns / self.n_hi) if self.n_hi > ns else mp.pi / 2
-
-    # invariant from family parameters
-    def b_from_hi_angle(self, phi):
-        if phi == mp.pi / 2:
-            return self.n_hi
-        return self.n_hi * mp.sin(phi)
-
-    def b_from_surface_angle(self, psi):
-        if psi == mp.pi / 2:
-            return self.m.n_surface
-        return self.m.n_surface * mp.sin(psi)
-
-    def top_of(self, b):
-        """Top of the up-going ray: None (turning point in the firn) or 0."""
-        if self.m.uniform or b <= self.m.n_surface:
-            return mpf(0)
-        return None
-
-    def direct(self, b, full=False):
-        return firn_stretch(self.m, b, self.z_lo, self.z_hi, full)
-
-    def upgoing(self, b, full=False):
-        top = self.top_of(b)
-        first = firn_stretch(self.m, b, self.z_lo, top, full)
-        second = firn_stretch(self.m, b, self.z_hi, top, full)
-        if full:
-            return tuple(p + q for p, q in zip(first, second))
-        return first + second
-
-
-# ---------------------------------------------------------------------------
-# coarse double-precision scan (numpy): only used to place brackets
+# the same horizontal distance in double precision, for the bracketing scan
 # ---------------------------------------------------------------------------
 
 _GL_NODES, _GL_WEIGHTS = np.polynomial.legendre.leggauss(48)
 
 
-def scan_stretch_x(medium, b, z_bottom, z_top):
+def scan_stretch_x(medium, a, z_bottom, z_top):
     """Horizontal distance of firn stretches in double precision.
 
-    b and z_top are arrays of equal shape, z_bottom a number.  Same
-    substitution as firn_stretch, fixed Gauss-Legendre rule per sub-interval.
-    Used only to bracket roots and extrema; every reported number is
-    recomputed by firn_stretch.
+    a (gaps) and z_top (tops; NaN for "up to the turning point") are arrays
+    of equal shape, z_bottom a number.  Same substitution as firn_stretch
+    with a fixed Gauss-Legendre rule per sub-interval.  Only used to bracket
+    roots and extrema; every reported number comes from firn_stretch.
     """
-    b = np.asarray(b, dtype=float)
-    z_top = np.broadcast_to(np.asarray(z_top, dtype=float), b.shape)
+    a = np.asarray(a, dtype=float)
+    z_top = np.broadcast_to(np.asarray(z_top, dtype=float), a.shape)
     zb = float(z_bottom)
-    if medium.uniform:
-        n = float(medium.n_deep)
-        return (z_top - zb) * b / np.sqrt((n - b) * (n + b))
-    h = float(medium.scale)
     nd = float(medium.n_deep)
-    a = nd - b
-    zt = h * np.log(a / float(medium.contrast))
-    t_lo = np.sqrt(np.maximum(zt - z_top, 0.0))
-    t_hi = np.sqrt(np.maximum(zt - zb, 0.0))
+    b = nd - a
+    if medium.uniform:
+        return (z_top - zb) * b / np.sqrt(a * (nd + b))
+    h = float(medium.scale)
+    contrast = float(medium.contrast)
+    to_turn = np.isnan(z_top)
+    safe_top = np.where(to_turn, zb, z_top)
+    s_top = np.where(to_turn, 0.0,
+                     h * np.log(a / (contrast * np.exp(safe_top / h))))
+    s_bot = h * np.log(a / (contrast * np.exp(zb / h)))
+    t_lo = np.sqrt(np.maximum(s_top, 0.0))
+    t_hi = np.sqrt(np.maximum(s_bot, 0.0))
     cuts = [t_lo]
-    for k in range(8):
+    for k in range(9):
         cuts.append(np.clip(np.sqrt(h * 4.0 ** k), t_lo, t_hi))
     cuts.append(t_hi)
-    total = np.zeros_like(b)
+    total = np.zeros_like(a)
     for lo, hi in zip(cuts[:-1], cuts[1:]):
         half = 0.5 * (hi - lo)
         mid = 0.5 * (hi + lo)
@@ -294,7 +261,87 @@ def scan_stretch_x(medium, b, z_bottom, z_top):
 
 
 # ---------------------------------------------------------------------------
-# extremum and root refinement at full precision
+# two points in the ice
+# ---------------------------------------------------------------------------
+
+class IcePair:
+    """Ray families between heights z_lo <= z_hi <= 0 (graded profile)."""
+
+    def __init__(self, medium, z_lo, z_hi):
+        self.m = medium
+        self.z_lo = z_lo
+        self.z_hi = z_hi
+        self.equal = z_lo == z_hi
+        self.n_hi = medium.index(z_hi)
+        self.a_hi = medium.gap_at(z_hi)
+
+    def top_of(self, a):
+        """Top of the up-going ray: None (turning point in the firn) or 0."""
+        return None if a < self.m.contrast else mpf(0)
+
+    def direct(self, a, full=False):
+        return firn_stretch(self.m, a, self.z_lo, self.z_hi, full)
+
+    def upgoing(self, a, full=False):
+        top = self.top_of(a)
+        first = firn_stretch(self.m, a, self.z_lo, top, full)
+        second = firn_stretch(self.m, a, self.z_hi, top, full)
+        if full:
+            return tuple(p + q for p, q in zip(first, second))
+        return first + second
+
+    # double-precision versions for the scan
+    def direct_np(self, a):
+        return scan_stretch_x(self.m, a, self.z_lo, np.full_like(a, float(self.z_hi)))
+
+    def upgoing_np(self, a):
+        top = np.where(a < float(self.m.contrast), np.nan, 0.0)
+        return (scan_stretch_x(self.m, a, self.z_lo, top)
+                + scan_stretch_x(self.m, a, self.z_hi, top))
+
+    def families(self):
+        """Ray families, up-going ones ordered from b = n(z_hi) towards b = 0."""
+        m = self.m
+        half_pi = mp.pi / 2
+        a_hi, n_hi, ns, contrast = self.a_hi, self.n_hi, m.n_surface, m.contrast
+        fa_hi, fn_hi, fns = float(a_hi), float(n_hi), float(ns)
+        fcontrast, fh, fz_hi = float(contrast), float(m.scale), float(self.z_hi)
+
+        # direct: zenith phi at z_hi; a = a_hi + n_hi (1 - sin phi)
+        def direct_gap(phi):
+            return a_hi + 2 * n_hi * mp.sin((half_pi - phi) / 2) ** 2
+
+        def direct_gap_np(phi):
+            return fa_hi + 2 * fn_hi * np.sin((np.pi / 2 - phi) / 2) ** 2
+
+        # refracted: turning height z_t = z_hi (1 - sigma^2)
+        def refr_gap(sigma):
+            return contrast * mp.exp(self.z_hi * (1 - sigma * sigma) / m.scale)
+
+        def refr_gap_np(sigma):
+            return fcontrast * np.exp(fz_hi * (1 - sigma * sigma) / fh)
+
+        # reflected: zenith psi at the surface; a = contrast + n_s (1 - sin psi)
+        def refl_gap(psi):
+            return contrast + 2 * ns * mp.sin((half_pi - psi) / 2) ** 2
+
+        def refl_gap_np(psi):
+            return fcontrast + 2 * fns * np.sin((np.pi / 2 - psi) / 2) ** 2
+
+        fams = []
+        if not self.equal:
+            fams.append(Family("direct", mpf(0), half_pi, direct_gap, direct_gap_np,
+                               self.direct, self.direct_np))
+        if self.z_hi < 0:
+            fams.append(Family("refracted", mpf(0), mpf(1), refr_gap, refr_gap_np,
+                               self.upgoing, self.upgoing_np))
+            fams.append(Family("reflected", half_pi, mpf(0), refl_gap, refl_gap_np,
+                               self.upgoing, self.upgoing_np))
+        return fams
+
+
+# ---------------------------------------------------------------------------
+# extremum and root refinement
 # ---------------------------------------------------------------------------
 
 def golden_extremum(func, a, c, maximise, width):
@@ -322,13 +369,17 @@ def golden_extremum(func, a, c, maximise, width):
 def refine_extremum(func, p0, lo, hi, maximise):
     """Full-precision extremum of a smooth func near p0, inside [lo, hi].
 
-    Repeated three-point parabola vertices with shrinking spacing; falls back
-    to golden-section search if the parabola is not usable.
+    Vertices of three-point parabolas whose spacing shrinks with the step
+    (quadratic convergence) down to 1e-12 of the interval, where the second
+    difference is still far above the rounding noise; golden-section search
+    if a parabola is not usable.
     """
     span = hi - lo
     p = p0
-    for rel in ("1e-5", "1e-9", "1e-13", "1e-17"):
-        d = mpf(rel) * span
+    d = mpf("1e-5") * span
+    d_min = mpf("1e-12") * span
+    ok = False
+    for _ in range(30):
         if p - d <= lo or p + d >= hi:
             break
         fm, f0, fp = func(p - d), func(p), func(p + d)
@@ -336,10 +387,14 @@ def refine_extremum(func, p0, lo, hi, maximise):
         if (maximise and curv >= 0) or (not maximise and curv <= 0):
             break
         step = d * (fm - fp) / (2 * curv)
-        if abs(step) > 2 * d:
+        if abs(step) > 4 * d:
             break
         p = p + step
-    else:
+        if d == d_min and abs(step) <= mpf("1e-3") * d_min:
+            ok = True
+            break
+        d = max(d_min, min(d / 10, 10 * abs(step)))
+    if ok:
         return p, func(p)
     width = span * mpf(10) ** (-(mp.dps // 2 + 2))
     return golden_extremum(func, max(lo, p - span / 1000), min(hi, p + span / 1000),
@@ -347,13 +402,13 @@ def refine_extremum(func, p0, lo, hi, maximise):
 
 
 def illinois(func, a, fa, c, fc, tol):
-    """Root of func in [a, c] with fa*fc < 0 (Illinois, kept in bracket)."""
+    """Root of func in [a, c] with fa * fc < 0 (Illinois, kept in bracket)."""
     if fa == 0:
         return a
     if fc == 0:
         return c
     side = 0
-    for _ in range(400):
+    for _ in range(500):
         p = (a * fc - c * fa) / (fc - fa)
         lo, hi = (a, c) if a < c else (c, a)
         if not (lo < p < hi):
@@ -377,55 +432,51 @@ def illinois(func, a, fa, c, fc, tol):
 
 
 class Family:
-    """One family of rays: parameter interval, b(param), X(b) (mp and numpy)."""
+    """One family of rays: parameter interval, gap(param), X(gap)."""
 
-    def __init__(self, kind, p_start, p_end, b_of, b_of_np, x_of, x_of_np):
+    def __init__(self, kind, p_start, p_end, gap, gap_np, x_of, x_of_np):
         self.kind = kind
         self.p_start, self.p_end = p_start, p_end
-        self.b_of, self.b_of_np = b_of, b_of_np
+        self.gap, self.gap_np = gap, gap_np
         self.x_of, self.x_of_np = x_of, x_of_np
 
     def x(self, p):
-        return self.x_of(self.b_of(p))
+        return self.x_of(self.gap(p))
+
+    def x_np(self, p):
+        return self.x_of_np(self.gap_np(np.asarray(p, dtype=float)))
 
     def analyse(self, scan):
-        """Scan; locate interior extrema; full-precision values at the nodes."""
-        lo, hi = float(self.p_start), float(self.p_end)
-        self.grid = np.linspace(lo, hi, scan + 1)
-        self.grid_x = self.x_of_np(self.b_of_np(self.grid))
+        """Scan, locate and refine interior extrema, value the piece ends."""
+        self.grid = np.linspace(float(self.p_start), float(self.p_end), scan + 1)
+        self.grid_x = self.x_np(self.grid)
         if not np.all(np.isfinite(self.grid_x)):
             raise RuntimeError("scan produced non-finite values (%s)" % self.kind)
         diff = np.diff(self.grid_x)
-        noise = 1e-11 * (1.0 + np.max(np.abs(self.grid_x)))
-        signs = []
-        for k, dv in enumerate(diff):
-            signs.append(0 if abs(dv) < noise else (1 if dv > 0 else -1))
-        ext = []  # (grid index, maximise)
-        last = None
-        last_k = None
+        noise = 1e-11 * (1.0 + np.maximum(np.abs(self.grid_x[:-1]),
+                                          np.abs(self.grid_x[1:])))
+        signs = np.where(np.abs(diff) < noise, 0, np.sign(diff)).astype(int)
+        ext = []  # (grid index of the extremum sample, maximise)
+        last, last_k = 0, None
         for k, sg in enumerate(signs):
             if sg == 0:
                 continue
-            if last is not None and sg != last:
-                # extremum between grid nodes last_k + 1 .. k
+            if last != 0 and sg != last:
                 ext.append(((last_k + 1 + k) // 2, last > 0))
             last, last_k = sg, k
+        lo, hi = sorted((self.p_start, self.p_end))
         self.extrema = []
-        plo, phi = (self.p_start, self.p_end) if self.p_start < self.p_end \
-            else (self.p_end, self.p_start)
         for k, maximise in ext:
-            k0, k1 = max(k - 1, 0), min(k + 1, len(self.grid) - 1)
-            a, c = self.grid[k0], self.grid[k1]
-            if a > c:
-                a, c = c, a
-            # double-precision golden search for a starting point
-            g = (5 ** 0.5 - 1) / 2
-            x1, x2 = c - g * (c - a), a + g * (c - a)
+            c0 = self.grid[max(k - 1, 0)]
+            c1 = self.grid[min(k + 1, len(self.grid) - 1)]
+            a, c = min(c0, c1), max(c0, c1)
             sgn = 1.0 if maximise else -1.0
 
             def fnp(p):
-                return sgn * float(self.x_of_np(self.b_of_np(np.array([p])))[0])
+                return sgn * float(self.x_np(np.array([p]))[0])
 
+            g = (5 ** 0.5 - 1) / 2
+            x1, x2 = c - g * (c - a), a + g * (c - a)
             f1, f2 = fnp(x1), fnp(x2)
             for _ in range(60):
                 if f1 >= f2:
@@ -436,28 +487,35 @@ class Family:
                     a, x1, f1 = x1, x2, f2
                     x2 = a + g * (c - a)
                     f2 = fnp(x2)
-            p, val = refine_extremum(self.x, mpf(0.5 * (x1 + x2)), plo, phi, maximise)
-            self.extrema.append({"param": p, "b": self.b_of(p), "x": val,
+            p, val = refine_extremum(self.x, mpf(0.5 * (x1 + x2)), lo, hi, maximise)
+            self.extrema.append({"param": p, "gap": self.gap(p), "x": val,
                                  "type": "max" if maximise else "min"})
         self.extrema.sort(key=lambda e: e["param"], reverse=self.p_start > self.p_end)
         self.nodes = [(self.p_start, self.x(self.p_start))]
         self.nodes += [(e["param"], e["x"]) for e in self.extrema]
         self.nodes.append((self.p_end, self.x(self.p_end)))
-        # verify the pieces are monotone on the scan grid
+        # the pieces between the nodes must be monotone on the scan grid
         for (pa, xa), (pc, xc) in zip(self.nodes[:-1], self.nodes[1:]):
-            inside = [x for p, x in zip(self.grid, self.grid_x)
-                      if min(pa, pc) < p < max(pa, pc)]
-            seq = [float(xa)] + inside + [float(xc)]
+            seq = [float(xa)] + self._inside(pa, pc) + [float(xc)]
             steps = np.diff(seq) * (1 if xc >= xa else -1)
-            if np.any(steps < -1e-9 * (1 + max(abs(v) for v in seq))):
-                raise RuntimeError("piece of %s family not monotone" % self.kind)
+            bound = 1e-9 * (1.0 + np.maximum(np.abs(seq[:-1]), np.abs(seq[1:])))
+            if np.any(steps < -bound):
+                raise RuntimeError("piece of the %s family not monotone" % self.kind)
         return self
+
+    def _inside(self, pa, pc, with_params=False):
+        """Scan samples strictly between pa and pc, in the order pa -> pc."""
+        lo, hi = float(min(pa, pc)), float(max(pa, pc))
+        sel = [(p, x) for p, x in zip(self.grid, self.grid_x) if lo < p < hi]
+        sel.sort(key=lambda item: item[0], reverse=pa > pc)
+        return sel if with_params else [x for _, x in sel]
 
     def roots(self, target):
         """Parameters of all rays of this family with X = target."""
         found = []
-        tol = abs(self.p_end - self.p_start) * mpf(10) ** (-(mp.dps - 4))
+        tol = abs(self.p_end - self.p_start) * eps_tol(4)
         f = lambda p: self.x(p) - target
+        ftarget = float(target)
         for (pa, xa), (pc, xc) in zip(self.nodes[:-1], self.nodes[1:]):
             fa, fc = xa - target, xc - target
             if fa == 0:
@@ -469,60 +527,24 @@ class Family:
                 continue
             if fa * fc > 0:
                 continue
-            # tight starting bracket from the scan grid, checked at full precision
-            a, fa2, c, fc2 = pa, fa, pc, fc
-            inside = [(p, x) for p, x in zip(self.grid, self.grid_x)
-                      if min(pa, pc) < p < max(pa, pc)]
-            if pa > pc:
-                inside.reverse()
-            for (p1, x1), (p2, x2) in zip([(pa, xa)] + inside, inside + [(pc, xc)]):
-                if (float(x1) - float(target)) * (float(x2) - float(target)) <= 0:
-                    q1 = mpf(p1) if (p1 is not pa) else pa
-                    q2 = mpf(p2) if (p2 is not pc) else pc
-                    f1 = f(q1) if q1 is not pa else fa
-                    f2 = f(q2) if q2 is not pc else fc
-                    if f1 * f2 < 0:
-                        a, fa2, c, fc2 = q1, f1, q2, f2
+            # tight starting bracket from the scan grid, checked in mpmath
+            a, fa_, c, fc_ = pa, fa, pc, fc
+            samples = self._inside(pa, pc, with_params=True)
+            prev = None
+            for p, x in samples:
+                if (x - ftarget) * float(fa) <= 0:
+                    q = mpf(p)
+                    fq = f(q)
+                    if fq * fa < 0:
+                        c, fc_ = q, fq
+                    if prev is not None:
+                        fp = f(prev)
+                        if fp * fc_ < 0:
+                            a, fa_ = prev, fp
                     break
-            found.append(illinois(f, a, fa2, c, fc2, tol))
+                prev = mpf(p)
+            found.append(illinois(f, a, fa_, c, fc_, tol))
         return found
-
-
-def ice_families(pair):
-    """The ray families between two ice heights, in the order of b."""
-    m = pair.m
-    ns_f, nhi_f = float(m.n_surface), float(pair.n_hi)
-    zlo, zhi = pair.z_lo, pair.z_hi
-    half_pi = mp.pi / 2
-
-    def hi_angle_np(phi):
-        return np.minimum(nhi_f * np.sin(phi), nhi_f)
-
-    def surf_angle_np(psi):
-        return np.minimum(ns_f * np.sin(psi), ns_f)
-
-    def direct_np(b):
-        return scan_stretch_x(m, b, zlo, np.full_like(b, float(zhi)))
-
-    def up_np(b):
-        if m.uniform:
-            top = np.zeros_like(b)
-        else:
-            zt = float(m.scale) * np.log((float(m.n_deep) - b) / float(m.contrast))
-            top = np.where(b > ns_f, np.minimum(zt, 0.0), 0.0)
-        return scan_stretch_x(m, b, zlo, top) + scan_stretch_x(m, b, zhi, top)
-
-    fams = []
-    if not pair.equal:
-        fams.append(Family("direct", mpf(0), half_pi, pair.b_from_hi_angle,
-                           hi_angle_np, pair.direct, direct_np))
-    if zhi < 0:
-        if pair.n_hi > m.n_surface:
-            fams.append(Family("refracted", half_pi, pair.phi_graze, pair.b_from_hi_angle,
-                               hi_angle_np, pair.upgoing, up_np))
-        fams.append(Family("reflected", half_pi, mpf(0), pair.b_from_surface_angle,
-                           surf_angle_np, pair.upgoing, up_np))
-    return fams
 
 
 # ---------------------------------------------------------------------------
@@ -534,11 +556,10 @@ def degrees(rad):
 
 
 def ray_record(kind, b, ctime, length, launch, arrival, turning):
-    c = mpf(SPEED_OF_LIGHT)
     return {
         "kind": kind,
         "invariant": b,
-        "travel_time": ctime / c,
+        "travel_time": ctime / mpf(SPEED_OF_LIGHT),
         "path_length": length,
         "launch_zenith": launch,
         "arrival_zenith": arrival,
@@ -546,120 +567,120 @@ def ray_record(kind, b, ctime, length, launch, arrival, turning):
     }
 
 
-def up_angle(b, n):
-    """Zenith of an up-going direction with invariant b at index n."""
-    ratio = b / n
-    if ratio > 1:
-        ratio = mpf(1)
-    return degrees(mp.asin(ratio))
+def ice_up_zenith(medium, a, z):
+    """Zenith [deg] of the up-going direction of the ray of gap a at z <= 0."""
+    a_z = medium.gap_at(z)
+    b = medium.n_deep - a
+    n = medium.n_deep - a_z
+    d = a - a_z  # n(z) - b
+    if d < 0:
+        if d < -eps_tol(8):
+            raise RuntimeError("ray does not reach height %s" % z)
+        d = mpf(0)
+    return degrees(mp.atan2(b, mp.sqrt(d * (n + b))))
 
 
-def down_angle(b, n):
-    return 180 - up_angle(b, n)
+def check_hit(x, dist):
+    if abs(x - dist) > eps_tol(10) * (1 + dist):
+        raise RuntimeError("refined ray misses the receiver: %s vs %s" % (x, dist))
 
 
 def ice_to_ice(medium, src, rcv, scan):
     dist = abs(rcv[0] - src[0])
     zs, zr = src[1], rcv[1]
     z_lo, z_hi = min(zs, zr), max(zs, zr)
-    n_s, n_r = medium.index(zs), medium.index(zr)
     info = {"direct_horizon_x": None, "max_reach_x": None,
-            "max_reach_invariant": None, "family_extrema": []}
+            "max_reach_invariant": None, "extrema": []}
     notes = []
-    if medium.uniform:
-        return uniform_ice_to_ice(medium, src, rcv, info, notes)
     if dist == 0 and zs == zr:
         raise ValueError("source and receiver coincide")
+    if medium.uniform:
+        return uniform_ice_to_ice(medium, src, rcv, info, notes)
     pair = IcePair(medium, z_lo, z_hi)
-    fams = [f.analyse(scan) for f in ice_families(pair)]
-    info["direct_horizon_x"] = mpf(0) if pair.equal else pair.direct(pair.n_hi)
-    found = []  # (kind, b)
+    fams = [f.analyse(scan) for f in pair.families()]
+    info["direct_horizon_x"] = mpf(0) if pair.equal else pair.direct(pair.a_hi)
+    found = []  # (kind, gap)
     if dist == 0:
-        found.append(("direct", mpf(0)))
+        found.append(("direct", medium.n_deep))
         if z_hi < 0:
-            found.append(("reflected", mpf(0)))
-        notes.append("vertical geometry: straight up/down rays with b = 0")
+            found.append(("reflected", medium.n_deep))
+        notes.append("vertical: straight up/down rays with b = 0")
     up_max = None
     for fam in fams:
         if dist > 0:
             for p in fam.roots(dist):
-                found.append((fam.kind, fam.b_of(p)))
+                found.append((fam.kind, fam.gap(p)))
         for e in fam.extrema:
-            info["family_extrema"].append(
-                {"subfamily": fam.kind, "type": e["type"], "invariant": e["b"], "x": e["x"]})
+            info["extrema"].append({"subfamily": fam.kind, "type": e["type"],
+                                    "invariant": medium.n_deep - e["gap"], "x": e["x"]})
         if fam.kind == "direct":
             if fam.extrema:
                 notes.append("direct family not monotone (unexpected)")
             continue
-        candidates = [(e["x"], e["b"]) for e in fam.extrema if e["type"] == "max"]
-        candidates += [(x, fam.b_of(p)) for p, x in (fam.nodes[0], fam.nodes[-1])]
-        for xv, bv in candidates:
+        candidates = [(e["x"], e["gap"]) for e in fam.extrema if e["type"] == "max"]
+        candidates += [(x, fam.gap(p)) for p, x in (fam.nodes[0], fam.nodes[-1])]
+        for xv, av in candidates:
             if up_max is None or xv > up_max[0]:
-                up_max = (xv, bv)
+                up_max = (xv, av)
     if up_max is not None:
         info["max_reach_x"] = up_max[0]
-        info["max_reach_invariant"] = up_max[1]
-        if up_max[1] == medium.n_surface:
-            notes.append("the up-going family reaches farthest with the grazing ray "
-                         "(b = n_surface, kink between refracted and reflected)")
+        info["max_reach_invariant"] = medium.n_deep - up_max[1]
+        if up_max[1] == medium.contrast:
+            notes.append("maximum reach at the grazing ray b = n_surface (kink "
+                         "between refracted and reflected rays)")
+        n_max = sum(1 for e in info["extrema"] if e["type"] == "max")
+        if n_max > 1:
+            notes.append("up-going family has %d interior maxima" % n_max)
     else:
         notes.append("point on the surface: only the direct family exists")
-    n_max = sum(1 for e in info["family_extrema"] if e["type"] == "max")
-    if n_max > 1:
-        notes.append("up-going family has %d interior maxima" % n_max)
-    # a root exactly at a family join would appear twice
-    unique = []
-    for kind, b in found:
-        if any(k == kind and abs(b - bb) <= mpf(10) ** (-(mp.dps - 6)) for k, bb in unique):
-            continue
-        unique.append((kind, b))
     rays = []
-    for kind, b in unique:
+    seen = []
+    for kind, a in found:
+        # a root exactly at a family join would be found twice
+        if any(k == kind and abs(a - aa) <= eps_tol(6) for k, aa in seen):
+            continue
+        seen.append((kind, a))
+        b = medium.n_deep - a
         if kind == "direct":
-            x, length, ctime = pair.direct(b, full=True)
-            turning = None
+            x, length, ctime = pair.direct(a, full=True)
+            up_s, up_r = ice_up_zenith(medium, a, zs), ice_up_zenith(medium, a, zr)
             if zr > zs:
-                launch, arrival = up_angle(b, n_s), up_angle(b, n_r)
+                launch, arrival = up_s, up_r
             else:
-                launch, arrival = down_angle(b, n_s), down_angle(b, n_r)
+                launch, arrival = 180 - up_s, 180 - up_r
+            turning = None
         else:
-            x, length, ctime = pair.upgoing(b, full=True)
-            top = pair.top_of(b)
+            x, length, ctime = pair.upgoing(a, full=True)
+            top = pair.top_of(a)
             if (kind == "refracted") != (top is None):
                 raise RuntimeError("kind %s does not match the top of the ray" % kind)
             turning = None
             if kind == "refracted":
-                turning = medium.turning_height(b)
+                turning = medium.turning_height(a)
                 if not turning < 0:
                     raise RuntimeError("turning point not below the surface")
-            launch, arrival = up_angle(b, n_s), down_angle(b, n_r)
+            launch = ice_up_zenith(medium, a, zs)
+            arrival = 180 - ice_up_zenith(medium, a, zr)
         check_hit(x, dist)
         rays.append(ray_record(kind, b, ctime, length, launch, arrival, turning))
     return rays, info, notes
-
-
-def check_hit(x, dist):
-    if abs(x - dist) > mpf(10) ** (-(mp.dps - 10)) * (1 + dist):
-        raise RuntimeError("refined ray misses the receiver: %s vs %s" % (x, dist))
 
 
 def uniform_ice_to_ice(medium, src, rcv, info, notes):
     n = medium.n_deep
     dist = abs(rcv[0] - src[0])
     zs, zr = src[1], rcv[1]
-    rays = []
-    notes.append("uniform firn: straight rays, no direct horizon and no maximum reach")
+    notes.append("uniform firn: straight rays; no direct horizon, no maximum reach")
     dz = zr - zs
     length = mp.sqrt(dist ** 2 + dz ** 2)
     zen = degrees(mp.atan2(dist, dz))
-    b = n * dist / length
-    rays.append(ray_record("direct", b, n * length, length, zen, zen, None))
+    rays = [ray_record("direct", n * dist / length, n * length, length, zen, zen, None)]
     if max(zs, zr) < 0:
-        dz_img = -(zs + zr)  # to the mirror image of the receiver
+        dz_img = -(zs + zr)  # towards the mirror image of the receiver
         length = mp.sqrt(dist ** 2 + dz_img ** 2)
-        b = n * dist / length
         launch = degrees(mp.atan2(dist, dz_img))
-        rays.append(ray_record("reflected", b, n * length, length, launch, 180 - launch, None))
+        rays.append(ray_record("reflected", n * dist / length, n * length, length,
+                               launch, 180 - launch, None))
     return rays, info, notes
 
 
@@ -671,11 +692,10 @@ def air_to_air(medium, src, rcv):
     na = medium.n_air
     dist = abs(rcv[0] - src[0])
     zs, zr = src[1], rcv[1]
-    rays = []
     dz = zr - zs
     length = mp.sqrt(dist ** 2 + dz ** 2)
     zen = degrees(mp.atan2(dist, dz))
-    rays.append(ray_record("direct", na * dist / length, na * length, length, zen, zen, None))
+    rays = [ray_record("direct", na * dist / length, na * length, length, zen, zen, None)]
     dz_img = -(zs + zr)
     length = mp.sqrt(dist ** 2 + dz_img ** 2)
     launch = degrees(mp.atan2(dist, dz_img))
@@ -689,34 +709,33 @@ def air_and_ice(medium, src, rcv):
     dist = abs(rcv[0] - src[0])
     zs, zr = src[1], rcv[1]
     z_air, z_ice = (zs, zr) if zs > 0 else (zr, zs)
-    if medium.n_air >= medium.n_surface:
-        raise ValueError("transmission code assumes n_air < n_surface")
 
-    def stretch(psi, full):
+    def through(psi, full):
         b = na * mp.sin(psi)
-        cosv = mp.cos(psi)
-        air_len = z_air / cosv
+        a = medium.n_deep - b
+        air_len = z_air / mp.cos(psi)
         air_x = z_air * mp.tan(psi)
         if full:
-            x, length, ctime = firn_stretch(medium, b, z_ice, mpf(0), True)
-            return b, air_x + x, air_len + length, na * air_len + ctime
-        return air_x + firn_stretch(medium, b, z_ice, mpf(0), False)
+            x, length, ctime = firn_stretch(medium, a, z_ice, mpf(0), True)
+            return a, air_x + x, air_len + length, na * air_len + ctime
+        return air_x + firn_stretch(medium, a, z_ice, mpf(0), False)
 
     if dist == 0:
         psi = mpf(0)
     else:
         hi = mp.atan2(dist, z_air)  # the air leg alone reaches dist there
-        f_hi = stretch(hi, False) - dist
-        tol = mpf(10) ** (-(mp.dps - 4))
-        psi = illinois(lambda p: stretch(p, False) - dist, mpf(0), -dist, hi, f_hi, tol)
-    b, x, length, ctime = stretch(psi, True)
+        f_hi = through(hi, False) - dist
+        psi = illinois(lambda p: through(p, False) - dist, mpf(0), -dist, hi, f_hi,
+                       eps_tol(4))
+    a, x, length, ctime = through(psi, True)
     check_hit(x, dist)
-    n_ice = medium.index(z_ice)
+    up_ice = ice_up_zenith(medium, a, z_ice)
     if zs > 0:
-        launch, arrival = 180 - degrees(psi), down_angle(b, n_ice)
+        launch, arrival = 180 - degrees(psi), 180 - up_ice
     else:
-        launch, arrival = up_angle(b, n_ice), degrees(psi)
-    notes = ["one transmitted ray (X grows monotonically with the air zenith)"]
+        launch, arrival = up_ice, degrees(psi)
+    notes = ["transmitted ray only (X grows monotonically with the air zenith)"]
+    b = medium.n_deep - a
     return [ray_record("transmitted", b, ctime, length, launch, arrival, None)], notes
 
 
@@ -725,36 +744,36 @@ def air_and_ice(medium, src, rcv):
 # ---------------------------------------------------------------------------
 
 def describe(rays, info, dist, extra):
-    notes = list(extra)
     kinds = [r["kind"] for r in rays]
     if not rays:
-        notes.insert(0, "no ray: shadow zone")
+        head = "no ray (shadow zone)"
     else:
-        counts = []
-        for k in ("direct", "refracted", "reflected", "transmitted"):
-            if kinds.count(k):
-                counts.append("%d %s" % (kinds.count(k), k))
-        notes.insert(0, ", ".join(counts) + ("" if "direct" in kinds or
-                                             "transmitted" in kinds else ", no direct"))
+        parts = ["%d %s" % (kinds.count(k), k) for k in
+                 ("direct", "refracted", "reflected", "transmitted") if kinds.count(k)]
+        head = ", ".join(parts)
+        if "direct" not in kinds and "transmitted" not in kinds:
+            head += ", no direct"
+    notes = [head] + list(extra)
     xh, xm = info.get("direct_horizon_x"), info.get("max_reach_x")
-    if xh is not None and dist > 0:
+    if xh is not None and xm is not None and dist > 0:
         if dist < xh:
             rel = "X below the direct horizon (X_h - X = %.3f m)" % float(xh - dist)
         else:
             rel = "X beyond the direct horizon (X - X_h = %.3f m)" % float(dist - xh)
-        if xm is not None:
-            if dist > xm:
-                rel += ", beyond the maximum reach (X - X_max = %.3f m)" % float(dist - xm)
-            else:
-                rel += ", within the maximum reach (X_max - X = %.3f m)" % float(xm - dist)
+        if dist > xm:
+            rel += ", beyond the maximum reach (X - X_max = %.3f m)" % float(dist - xm)
+        else:
+            rel += ", within the maximum reach (X_max - X = %.3f m)" % float(xm - dist)
         notes.append(rel)
+    elif xh is not None and dist > 0:
+        side = "below" if dist < xh else "beyond"
+        notes.append("X %s the direct horizon (|X - X_h| = %.3f m)"
+                     % (side, abs(float(dist - xh))))
     return "; ".join(notes)
 
 
-def to_json_number(v):
-    if v is None:
-        return None
-    return float(v)
+def num(v):
+    return None if v is None else float(v)
 
 
 def solve_case(case, profiles, scan):
@@ -764,7 +783,7 @@ def solve_case(case, profiles, scan):
     rcv = [to_mp(v) for v in case["receiver"]]
     dist = abs(rcv[0] - src[0])
     info = {"direct_horizon_x": None, "max_reach_x": None,
-            "max_reach_invariant": None, "family_extrema": []}
+            "max_reach_invariant": None, "extrema": []}
     if src[1] > 0 and rcv[1] > 0:
         rays, notes = air_to_air(medium, src, rcv)
     elif src[1] > 0 or rcv[1] > 0:
@@ -772,24 +791,22 @@ def solve_case(case, profiles, scan):
     else:
         rays, info, notes = ice_to_ice(medium, src, rcv, scan)
     rays.sort(key=lambda r: r["travel_time"])
-    out = {
+    keys = ("kind", "invariant", "travel_time", "path_length",
+            "launch_zenith", "arrival_zenith", "turning_z")
+    return {
         "profile_key": case["profile"],
-        "profile": dict(params),
+        "profile": {k: float(v) for k, v in params.items()},
         "source": [float(v) for v in case["source"]],
         "receiver": [float(v) for v in case["receiver"]],
-        "direct_horizon_x": to_json_number(info["direct_horizon_x"]),
-        "max_reach_x": to_json_number(info["max_reach_x"]),
-        "max_reach_invariant": to_json_number(info["max_reach_invariant"]),
-        "upgoing_extrema": [
-            {"subfamily": e["subfamily"], "type": e["type"],
-             "invariant": float(e["invariant"]), "x": float(e["x"])}
-            for e in info["family_extrema"]],
+        "direct_horizon_x": num(info["direct_horizon_x"]),
+        "max_reach_x": num(info["max_reach_x"]),
+        "max_reach_invariant": num(info["max_reach_invariant"]),
+        "upgoing_extrema": [{"subfamily": e["subfamily"], "type": e["type"],
+                             "invariant": num(e["invariant"]), "x": num(e["x"])}
+                            for e in info["extrema"]],
         "notes": describe(rays, info, dist, notes),
-        "rays": [{k: (r[k] if k == "kind" else to_json_number(r[k])) for k in
-                  ("kind", "invariant", "travel_time", "path_length",
-                   "launch_zenith", "arrival_zenith", "turning_z")} for r in rays],
+        "rays": [{k: (r[k] if k == "kind" else num(r[k])) for k in keys} for r in rays],
     }
-    return out
 
 
 def main(argv=None):
@@ -799,8 +816,11 @@ def main(argv=None):
     ap.add_argument("--dps", type=int, default=DEFAULT_DPS)
     ap.add_argument("--scan", type=int, default=DEFAULT_SCAN,
                     help="samples per family for the bracketing scan")
-    ap.add_argument("--only", nargs="*", help="compute only these cases, print, write nothing")
+    ap.add_argument("--only", nargs="*",
+                    help="compute only these cases and print them (writes nothing)")
     args = ap.parse_args(argv)
+    if args.dps < 30:
+        ap.error("--dps must be at least 30")
     mp.dps = args.dps
     with open(args.catalogue) as fh:
         cat = yaml.safe_load(fh)
@@ -810,18 +830,22 @@ def main(argv=None):
     for case in cat["cases"]:
         if args.only and case["name"] not in args.only:
             continue
+        if case["name"] in results:
+            raise ValueError("duplicate case name %s" % case["name"])
         t0 = time.time()
         res = solve_case(case, profiles, args.scan)
         results[case["name"]] = res
-        print("%-32s %5.1fs  %s" % (case["name"], time.time() - t0, res["notes"]),
+        print("%-34s %5.1fs  %s" % (case["name"], time.time() - t0, res["notes"]),
               file=sys.stderr)
     print("total %.1fs" % (time.time() - start), file=sys.stderr)
     doc = {
-        "generator": "tests/generators/reference_rays.py: mpmath %s, tanh-sinh "
-                     "quadrature of the ray integrals, bracketed roots; "
-                     "scan %d samples per family" % (mpmath.__version__, args.scan),
+        "generator": "tests/generators/reference_rays.py (mpmath %s; tanh-sinh "
+                     "quadrature of the ray integrals, bracketed roots, %d scan "
+                     "samples per family)" % (mpmath.__version__, args.scan),
         "mp_dps": args.dps,
-        "speed_of_light_m_per_ns": float(mpf(SPEED_OF_LIGHT)),
+        "speed_of_light": float(mpf(SPEED_OF_LIGHT)),
+        "units": {"x": "m", "z": "m", "travel_time": "ns", "path_length": "m",
+                  "zenith": "deg, of the propagation direction (0 = up)"},
         "cases": results,
     }
     if args.only:
