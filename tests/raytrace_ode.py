@@ -35,7 +35,8 @@ def make_index(n_deep, n_surface, scale_depth, n_air=1.0):
     return n, dndz, n_air
 
 
-def shoot(index, source_z, invariant, upward, x_end, bounce=True, rtol=1e-12, atol=1e-10):
+def shoot(index, source_z, invariant, upward, x_end, bounce=True, rtol=1e-12, atol=1e-10,
+          max_step=2.0):
     """Trace a ray from (0, source_z) until it reaches horizontal distance x_end.
 
     The ray starts with horizontal slowness ``invariant`` (the Snell
@@ -71,7 +72,7 @@ def shoot(index, source_z, invariant, upward, x_end, bounce=True, rtol=1e-12, at
     s_total = 0.0
     for _ in range(4):
         sol = solve_ivp(rhs, (0.0, 1e6), state, method="DOP853", rtol=rtol, atol=atol,
-                        events=[reach_x, cross_surface], max_step=50.0)
+                        events=[reach_x, cross_surface], max_step=max_step)
         if sol.t_events[0].size:
             y = sol.y_events[0][0]
             return y[1], y[4], y[5]
