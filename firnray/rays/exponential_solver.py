@@ -353,9 +353,8 @@ def solve_pair(out, kinds, conv, i, a, delta, s, n_air, x_target, z_src, z_rcv):
     return solve_ice_pair(out, kinds, conv, i, a, delta, s, x_target, z_src, z_rcv)
 
 
-@numba.njit(parallel=True, **KERNEL_OPTIONS)
-def solve_pairs(a, delta, s, n_air, x_target, z_src, z_rcv, out, kinds, conv, count):
-    """Solve every pair in parallel (numba threads).
+def _solve_rows(a, delta, s, n_air, x_target, z_src, z_rcv, out, kinds, conv, count):
+    """Solve every pair; parallel over pairs (numba threads) in ``solve_pairs``.
 
     Parameters
     ----------
@@ -395,6 +394,12 @@ def solve_pairs(a, delta, s, n_air, x_target, z_src, z_rcv, out, kinds, conv, co
             cc = conv[i, 0]
             conv[i, 0] = conv[i, 1]
             conv[i, 1] = cc
+
+
+#: Every pair, in parallel over numba threads.
+solve_pairs = numba.njit(parallel=True, **KERNEL_OPTIONS)(_solve_rows)
+#: The same on the calling thread only (cheaper for a handful of pairs).
+solve_pairs_serial = numba.njit(**KERNEL_OPTIONS)(_solve_rows)
 
 
 def allocate(n_pairs):

@@ -16,6 +16,10 @@ from firnray.rays import exponential_solver as es
 from firnray.rays.results import RaySet
 
 
+#: Batches smaller than this run on the calling thread (thread start-up costs more).
+SERIAL_BELOW = 64
+
+
 def _check_profile(profile):
     if not isinstance(profile, IndexProfile):
         raise ValueError(f"profile must be an index profile (for example "
@@ -58,12 +62,15 @@ def solve_arrays(profile, sources, receivers, workers=None):
                       f"(z >= {profile.z_min} m) give no ray", FirnrayWarning, stacklevel=3)
     table, kinds, conv, count = es.allocate(x.shape[0])
     a, delta, s, n_air = profile.parameters
-    previous = numba.get_num_threads()
-    numba.set_num_threads(n_threads)
-    try:
-        es.solve_pairs(a, delta, s, n_air, x, zs, zr, table, kinds, conv, count)
-    finally:
-        numba.set_num_threads(previous)
+    if n_threads == 1 or x.shape[0] < SERIAL_BELOW:
+        es.solve_pairs_serial(a, delta, s, n_air, x, zs, zr, table, kinds, conv, count)
+    else:
+        previous = numba.get_num_threads()
+        numba.set_num_threads(n_threads)
+        try:
+            es.solve_pairs(a, delta, s, n_air, x, zs, zr, table, kinds, conv, count)
+        finally:
+            numba.set_num_threads(previous)
     if count.size and not conv[np.arange(conv.shape[1])[None, :] < count[:, None]].all():
         warnings.warn("the root finder did not meet its tolerance for some rays; "
                       "see RaySet.converged", FirnrayWarning, stacklevel=3)

@@ -50,6 +50,19 @@ Everything reported is evaluated with mpmath at ``mp.dps`` = 32 digits.
   bracket.  Each ray found is integrated again and checked to hit the
   receiver.
 
+Output
+------
+``{"generator", "mp_dps", "speed_of_light", "units", "cases": {name: case}}``
+where each case holds the profile (``profile_key``, ``profile``), ``source``,
+``receiver``, ``direct_horizon_x`` and ``max_reach_x`` (null unless both
+points are in graded ice; X_h = 0 for equal depths, X_max null when a point
+lies on the surface), ``max_reach_invariant`` (b of the farthest up-going
+ray; n_surface when that is the grazing ray), ``upgoing_extrema`` (interior
+extrema of the refracted / reflected sub-families), ``notes`` and ``rays``
+sorted by travel time, each with kind, invariant, travel_time, path_length,
+launch_zenith, arrival_zenith and turning_z (null unless refracted).  Floats
+are the doubles nearest to the mpmath values.
+
 This script shares no code with the firnray package: it imports nothing from
 it and re-derives everything from the ray equations.  It needs only mpmath,
 numpy and pyyaml.
@@ -598,6 +611,8 @@ def ice_to_ice(medium, src, rcv, scan):
         return uniform_ice_to_ice(medium, src, rcv, info, notes)
     pair = IcePair(medium, z_lo, z_hi)
     fams = [f.analyse(scan) for f in pair.families()]
+    if pair.equal:
+        notes.append("equal depths: no direct family (X_h = 0)")
     info["direct_horizon_x"] = mpf(0) if pair.equal else pair.direct(pair.a_hi)
     found = []  # (kind, gap)
     if dist == 0:
