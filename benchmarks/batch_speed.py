@@ -13,6 +13,7 @@ import argparse
 import math
 import resource
 import time
+import tracemalloc
 
 import numpy as np
 from scipy.optimize import brentq
@@ -63,12 +64,17 @@ def main():
         best = min(best, time.perf_counter() - t0)
     rate = args.pairs / best
     peak_mib = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
+    tracemalloc.start()
+    batch = firnray.find_rays_many(prof, src, rcv, workers=args.workers)
+    call_mib = tracemalloc.get_traced_memory()[1] / 2**20
+    tracemalloc.stop()
     counts = np.bincount(batch.count, minlength=3)
     ok = batch.converged[batch.kind >= 0].all()
     print(f"firnray find_rays_many: {args.pairs} pairs in {best:.3f} s = {rate:,.0f} pairs/s "
           f"(workers={args.workers or 'all'}); rays per pair 0/1/2: {counts.tolist()}; "
           f"all converged: {bool(ok)}")
-    print(f"peak resident memory of this process: {peak_mib:.0f} MiB")
+    print(f"memory: {call_mib:.0f} MiB allocated at peak by one call (tracemalloc); "
+          f"peak resident memory of this process {peak_mib:.0f} MiB")
 
     index = make_index(prof.n_deep, prof.n_surface, prof.scale_depth, prof.n_air)
     sub = slice(0, args.baseline_pairs)

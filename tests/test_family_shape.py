@@ -33,3 +33,5 @@ def test_single_maximum_and_peak_finder(a, ns, s):
         psi_peak, x_max = es.up_family_peak(pair)
         assert x_max >= xs.max() * (1 - 1e-12), (zlo, zhi)
         assert ek.family_distance(True, 0.0, pair)[1] > 0.0
+        x_h = ek.family_distance(False, 0.0, pair)[0]
+        assert es.reach_bound(x_h, pair) >= x_max

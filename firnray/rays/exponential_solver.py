@@ -152,6 +152,23 @@ def grazing_angle(pair):
 
 
 @kernel
+def reach_bound(x_h, pair):
+    """Upper bound [m] on the reach X_max of the up-going family.
+
+    The up-going ray is the direct piece z_lo -> z_hi, whose reach is at most
+    X_h (its integrand b/w grows with b <= n_hi), plus twice the piece from z_hi
+    to its turning point (or the surface).  On that piece
+    n - b >= delta u_hi (z_top - z)/s and n^2 - b^2 >= 2 b (n - b), so
+
+        X_max <= X_h + 2 sqrt(2 n_hi s |z_hi| / (delta u_hi)).
+
+    Used to skip the peak search for pairs far inside the shadow zone.
+    """
+    s, z_hi, u_hi, n_hi = pair[2], pair[6], pair[7], pair[8]
+    return x_h + 2.0 * math.sqrt(2.0 * n_hi * s * (-z_hi) / (pair[1] * u_hi))
+
+
+@kernel
 def up_family_peak(pair):
     """Angle psi* [rad] and distance X_max [m] of the largest reach of the up-going family.
 
@@ -224,9 +241,10 @@ def store_ice_ray(out, kinds, conv, i, k, up, psi, converged, swapped, pair):
     if code == 1:
         turning = turning_height(a, delta, s, b, q)
     theta_lo = math.atan2(b, w_lo)
-    theta_hi = math.atan2(b, p)
     if up:
-        theta_hi = math.pi - theta_hi
+        theta_hi = HALF_PI + psi
+    else:
+        theta_hi = HALF_PI - psi
     if swapped:
         launch, arrival = math.pi - theta_hi, math.pi - theta_lo
     else:
@@ -295,6 +313,8 @@ def solve_ice_pair(out, kinds, conv, i, a, delta, s, x_target, z_src, z_rcv):
                               0.0, 1.0, pair)
         store_ice_ray(out, kinds, conv, i, k, True, psi, ok, swapped, pair)
         return k + 1
+    if x_target > reach_bound(x_h, pair):
+        return k  # beyond any up-going ray: shadow zone, no peak search needed
     psi_peak, x_max = up_family_peak(pair)
     f_peak = x_max - x_target
     if f_peak < 0.0:
@@ -353,8 +373,35 @@ def solve_pair(out, kinds, conv, i, a, delta, s, n_air, x_target, z_src, z_rcv):
     return solve_ice_pair(out, kinds, conv, i, a, delta, s, x_target, z_src, z_rcv)
 
 
-def _solve_rows(a, delta, s, n_air, x_target, z_src, z_rcv, out, kinds, conv, count):
-    """Solve every pair; parallel over pairs (numba threads) in ``solve_pairs``.
+@kernel
+def solve_row(i, a, delta, s, n_air, x_target, z_src, z_rcv, out, kinds, conv, count):
+    """Solve pair i and order its rays by travel time (see :func:`solve_pairs`)."""
+    for k in range(MAX_RAYS):
+        for c in range(N_COLS):
+            out[i, k, c] = math.nan
+        kinds[i, k] = -1
+        conv[i, k] = False
+    x, zs, zr = x_target[i], z_src[i], z_rcv[i]
+    if not (math.isfinite(x) and math.isfinite(zs) and math.isfinite(zr)):
+        count[i] = 0
+        return
+    count[i] = solve_pair(out, kinds, conv, i, a, delta, s, n_air, x, zs, zr)
+    if count[i] == 2 and out[i, 1, COL_TIME] < out[i, 0, COL_TIME]:
+        for c in range(N_COLS):
+            tmp = out[i, 0, c]
+            out[i, 0, c] = out[i, 1, c]
+            out[i, 1, c] = tmp
+        kk = kinds[i, 0]
+        kinds[i, 0] = kinds[i, 1]
+        kinds[i, 1] = kk
+        cc = conv[i, 0]
+        conv[i, 0] = conv[i, 1]
+        conv[i, 1] = cc
+
+
+@numba.njit(parallel=True, **KERNEL_OPTIONS)
+def solve_pairs(a, delta, s, n_air, x_target, z_src, z_rcv, out, kinds, conv, count):
+    """Solve every pair, in parallel over numba threads.
 
     Parameters
     ----------
@@ -368,7 +415,7 @@ def _solve_rows(a, delta, s, n_air, x_target, z_src, z_rcv, out, kinds, conv, co
         Horizontal distance [m], source and receiver heights [m].  A row with
         a NaN is skipped (count 0).
     out : ndarray, shape (N, MAX_RAYS, N_COLS)
-        Filled with NaN by the caller; receives the ray quantities.
+        Receives the ray quantities (NaN where there is no ray).
     kinds : ndarray of int8, shape (N, MAX_RAYS)
         Receives the kind codes (-1 where no ray).
     conv : ndarray of bool, shape (N, MAX_RAYS)
@@ -377,35 +424,21 @@ def _solve_rows(a, delta, s, n_air, x_target, z_src, z_rcv, out, kinds, conv, co
         Receives the number of rays per pair.
     """
     for i in numba.prange(x_target.shape[0]):
-        x, zs, zr = x_target[i], z_src[i], z_rcv[i]
-        if not (math.isfinite(x) and math.isfinite(zs) and math.isfinite(zr)):
-            count[i] = 0
-            continue
-        count[i] = solve_pair(out, kinds, conv, i, a, delta, s, n_air, x, zs, zr)
-        # order by travel time
-        if count[i] == 2 and out[i, 1, COL_TIME] < out[i, 0, COL_TIME]:
-            for c in range(N_COLS):
-                tmp = out[i, 0, c]
-                out[i, 0, c] = out[i, 1, c]
-                out[i, 1, c] = tmp
-            kk = kinds[i, 0]
-            kinds[i, 0] = kinds[i, 1]
-            kinds[i, 1] = kk
-            cc = conv[i, 0]
-            conv[i, 0] = conv[i, 1]
-            conv[i, 1] = cc
+        solve_row(i, a, delta, s, n_air, x_target, z_src, z_rcv, out, kinds, conv, count)
 
 
-#: Every pair, in parallel over numba threads.
-solve_pairs = numba.njit(parallel=True, **KERNEL_OPTIONS)(_solve_rows)
-#: The same on the calling thread only (cheaper for a handful of pairs).
-solve_pairs_serial = numba.njit(**KERNEL_OPTIONS)(_solve_rows)
+@kernel
+def solve_pairs_serial(a, delta, s, n_air, x_target, z_src, z_rcv, out, kinds, conv, count):
+    """:func:`solve_pairs` on the calling thread only (cheaper for a few pairs)."""
+    for i in range(x_target.shape[0]):
+        solve_row(i, a, delta, s, n_air, x_target, z_src, z_rcv, out, kinds, conv, count)
 
 
 def allocate(n_pairs):
-    """Output arrays for ``solve_pairs``: (out, kinds, conv, count)."""
-    out = np.full((n_pairs, MAX_RAYS, N_COLS), np.nan)
-    kinds = np.full((n_pairs, MAX_RAYS), -1, dtype=np.int8)
-    conv = np.zeros((n_pairs, MAX_RAYS), dtype=np.bool_)
-    count = np.zeros(n_pairs, dtype=np.int64)
+    """Output arrays for ``solve_pairs``: (out, kinds, conv, count), uninitialised
+    (every row is written by the kernel)."""
+    out = np.empty((n_pairs, MAX_RAYS, N_COLS))
+    kinds = np.empty((n_pairs, MAX_RAYS), dtype=np.int8)
+    conv = np.empty((n_pairs, MAX_RAYS), dtype=np.bool_)
+    count = np.empty(n_pairs, dtype=np.int64)
     return out, kinds, conv, count

@@ -71,7 +71,7 @@ def solve_arrays(profile, sources, receivers, workers=None):
             es.solve_pairs(a, delta, s, n_air, x, zs, zr, table, kinds, conv, count)
         finally:
             numba.set_num_threads(previous)
-    if count.size and not conv[np.arange(conv.shape[1])[None, :] < count[:, None]].all():
+    if not np.all(conv | (kinds < 0)):
         warnings.warn("the root finder did not meet its tolerance for some rays; "
                       "see RaySet.converged", FirnrayWarning, stacklevel=3)
     return RaySet(profile, sources, receivers, table, kinds, conv, count)
