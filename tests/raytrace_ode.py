@@ -20,7 +20,7 @@ C = 0.299792458  # m/ns, SI definition
 
 
 def make_index(n_deep, n_surface, scale_depth, n_air=1.0):
-    """(n_ice(z), dn_ice/dz(z), n_air).  Above z = 0 the firn index is continued
+    """(index_in_firn(z), dn_ice/dz(z), n_air).  Above z = 0 the firn index is continued
     as the constant n_surface, so that the integrator never steps across a jump
     in n and a ray that reaches the surface keeps going up until the crossing
     event stops it; the side of the surface a ray is on is tracked by ``shoot``."""
@@ -44,11 +44,11 @@ def shoot(index, source_z, invariant, upward, x_end, bounce=True, rtol=1e-12, at
     ``bounce``, else transmitted.  Returns (z at x_end [m], travel time [ns],
     path length [m]) or None if the ray never gets there.
     """
-    n_ice, dndz_ice, n_air = index
+    index_in_firn, dndz_ice, n_air = index
     side = {"air": source_z > 0}
 
     def n(z):
-        return n_air if side["air"] else n_ice(z)
+        return n_air if side["air"] else index_in_firn(z)
 
     def dndz(z):
         return 0.0 if side["air"] else dndz_ice(z)
@@ -90,7 +90,7 @@ def shoot(index, source_z, invariant, upward, x_end, bounce=True, rtol=1e-12, at
             y[1] = 1e-12
         else:                     # transmission into the ice
             side["air"] = False
-            y[3] = -math.sqrt(n_ice(0.0) ** 2 - kx ** 2)
+            y[3] = -math.sqrt(index_in_firn(0.0) ** 2 - kx ** 2)
             y[1] = -1e-12
         state = y
     return None
