@@ -20,7 +20,7 @@ from firnray.rays.results import RaySet
 SERIAL_BELOW = 64
 
 
-def _check_profile(profile):
+def check_profile(profile):
     if not isinstance(profile, IndexProfile):
         raise ValueError(f"profile must be an index profile (for example "
                          f"firnray.ExponentialProfile or firnray.load_profile(...)), "
@@ -101,7 +101,7 @@ def find_rays_many(profile, sources, receivers, workers=None):
         For a wrong array shape, mismatched lengths, an invalid profile or
         ``workers``.
     """
-    _check_profile(profile)
+    check_profile(profile)
     src, _ = points("sources", sources)
     rcv, _ = points("receivers", receivers)
     if src.shape[0] != rcv.shape[0]:
@@ -137,7 +137,7 @@ def find_rays(profile, source, receiver):
         For non-finite coordinates, coincident points, a point below the
         profile's valid range, or an invalid profile.
     """
-    _check_profile(profile)
+    check_profile(profile)
     src, _ = point("source", source)
     rcv, _ = point("receiver", receiver)
     if np.array_equal(src, rcv):
