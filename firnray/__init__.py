@@ -9,7 +9,8 @@ The public API (see ``docs/guide.md``)::
 
 Layers (one folder each; a module imports only from its own layer or lower
 ones): ``medium`` (index profiles, files) -> ``rays`` (closed-form kernels,
-root finding, results) -> ``faces`` (command line).
+root finding, results) -> ``studies`` (shadow zones, D/R delays, lookup
+tables, chunked execution) -> ``faces`` (command line, plots).
 """
 
 from firnray.errors import FirnrayWarning, ProfileFileError
@@ -17,21 +18,34 @@ from firnray.medium.files import bundled_profiles, load_profile
 from firnray.medium.profiles import ExponentialProfile, IndexProfile
 from firnray.rays.results import KIND_CODES, KIND_NAMES, Ray, RaySet
 from firnray.rays.solve import find_rays, find_rays_many
+from firnray.studies.delays import DelayGrid, DelayInversion, distance_from_delay, dr_delays
+from firnray.studies.shadow import reachability_map, shadow_boundary
+from firnray.studies.tables import LookupTable, TableError, build_table, open_table
 
 __version__ = "0.1.0"
 
 __all__ = [
+    "DelayGrid",
+    "DelayInversion",
     "ExponentialProfile",
     "FirnrayWarning",
     "IndexProfile",
     "KIND_CODES",
     "KIND_NAMES",
+    "LookupTable",
     "ProfileFileError",
     "Ray",
     "RaySet",
+    "TableError",
     "__version__",
+    "build_table",
     "bundled_profiles",
+    "distance_from_delay",
+    "dr_delays",
     "find_rays",
     "find_rays_many",
     "load_profile",
+    "open_table",
+    "reachability_map",
+    "shadow_boundary",
 ]

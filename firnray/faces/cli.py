@@ -1,6 +1,10 @@
 """The ``firnray`` command line.
 
     firnray rays [--profile NAME|FILE] --source X,Z --receiver X,Z [--json]
+    firnray shadow [--profile ...] --antenna-z Z [--source-z A:B:N] [--distance A:B:N] [--plot PNG]
+    firnray delays [--profile ...] --antenna-z Z [--source-z A:B:N] [--distance A:B:N] [--plot PNG]
+                   [--invert DELAY --at-z Z]
+    firnray table build|info ...
     firnray profiles
 
 Bad input exits with code 2 and a one-line message on stderr.
@@ -11,7 +15,12 @@ import json
 import math
 import sys
 
+import numpy as np
+
 import firnray
+from firnray.studies import delays as delay_study
+from firnray.studies import shadow as shadow_study
+from firnray.studies import tables as table_study
 
 
 class UsageError(Exception):
@@ -34,6 +43,35 @@ def _parse_point(name, text):
     if not all(math.isfinite(v) for v in values):
         raise UsageError(f"--{name} expects finite coordinates, got {text!r}")
     return tuple(values)
+
+
+def _parse_grid(name, text):
+    """'start:stop:count' -> evenly spaced array (or one number)."""
+    parts = text.split(":")
+    try:
+        if len(parts) == 1:
+            return np.array([float(parts[0])])
+        if len(parts) == 3:
+            start, stop, count = float(parts[0]), float(parts[1]), int(parts[2])
+            if count >= 2 and math.isfinite(start) and math.isfinite(stop):
+                return np.linspace(start, stop, count)
+    except ValueError:
+        pass
+    raise UsageError(f"--{name} expects START:STOP:COUNT (COUNT >= 2) or one number, "
+                     f"got {text!r}")
+
+
+def _load(args):
+    try:
+        return firnray.load_profile(args.profile)
+    except ValueError as err:
+        raise UsageError(str(err).splitlines()[0]) from None
+
+
+def _save(fig, path):
+    fig.tight_layout()
+    fig.savefig(path, dpi=120)
+    return path
 
 
 def _fmt(value, spec):
@@ -82,6 +120,120 @@ def _cmd_rays(args):
     return 0
 
 
+def _cmd_shadow(args):
+    profile = _load(args)
+    z = _parse_grid("source-z", args.source_z)
+    try:
+        boundary = shadow_study.shadow_boundary(profile, args.antenna_z, z)
+    except ValueError as err:
+        raise UsageError(str(err)) from None
+    boundary = np.atleast_1d(boundary)
+    print(f"profile {profile.info.get('name', args.profile)}: antenna at z = {args.antenna_z} m")
+    print(f"{'source z [m]':>14}{'shadow boundary [m]':>22}")
+    for zi, bi in zip(z, boundary):
+        print(f"{zi:>14.2f}{bi:>22.2f}")
+    if args.plot:
+        import matplotlib.pyplot as plt
+        x = _parse_grid("distance", args.distance)
+        z_map = np.linspace(float(np.min(z)), min(float(np.max(z)), 0.0), 400)
+        reach, b_map = shadow_study.reachability_map(profile, args.antenna_z, x, z_map)
+        fig, ax = plt.subplots(figsize=(7, 4.5))
+        from firnray.faces.plots import plot_shadow_map
+        plot_shadow_map(x, z_map, reach, b_map, ax=ax, antenna_z=args.antenna_z)
+        print(f"map written to {_save(fig, args.plot)}")
+    return 0
+
+
+def _cmd_delays(args):
+    profile = _load(args)
+    try:
+        if args.invert is not None:
+            if args.at_z is None:
+                raise UsageError("--invert needs --at-z (the source height [m])")
+            inv = delay_study.distance_from_delay(profile, args.antenna_z, args.at_z,
+                                                  args.invert)
+            sols = inv.solutions[0]
+            if not len(sols):
+                print(f"no distance gives a delay of {args.invert} ns at z = {args.at_z} m")
+            else:
+                note = " (ambiguous)" if inv.ambiguous[0] else ""
+                print(f"delay {args.invert} ns at source z = {args.at_z} m -> distance "
+                      f"{', '.join(f'{v:.3f}' for v in sols)} m{note}")
+            return 0
+        x = _parse_grid("distance", args.distance)
+        z = _parse_grid("source-z", args.source_z)
+        grid = delay_study.dr_delays(profile, args.antenna_z, x, z)
+    except ValueError as err:
+        raise UsageError(str(err)) from None
+    names = grid.kind_names
+    print(f"profile {profile.info.get('name', args.profile)}: antenna at z = {args.antenna_z} m; "
+          f"D/R delay [ns] (first/second kind)")
+    cols = np.unique(np.linspace(0, len(x) - 1, min(len(x), 6)).astype(int))
+    rows = np.unique(np.linspace(0, len(z) - 1, min(len(z), 12)).astype(int))
+    print(f"{'z [m] / x [m]':>14}" + "".join(f"{x[c]:>24.1f}" for c in cols))
+    for r in rows:
+        cells = []
+        for c in cols:
+            d = grid.delay[r, c]
+            if np.isfinite(d):
+                k1 = names[int(grid.first_kind[r, c])][:4]
+                k2 = names[int(grid.second_kind[r, c])][:4]
+                cells.append(f"{d:>12.2f} ({k1}/{k2})")
+            else:
+                cells.append(f"{'-':>12}" + " " * 12)
+        print(f"{z[r]:>14.1f}" + "".join(f"{c:>24}" for c in cells))
+    if args.plot:
+        import matplotlib.pyplot as plt
+        from firnray.faces.plots import plot_delay_contours
+        fig, ax = plt.subplots(figsize=(7, 4.5))
+        plot_delay_contours(grid, ax=ax)
+        print(f"contours written to {_save(fig, args.plot)}")
+    return 0
+
+
+def _cmd_table(args):
+    if args.action == "info":
+        try:
+            table = table_study.open_table(args.folder)
+        except ValueError as err:
+            raise UsageError(str(err)) from None
+        rec = table.provenance
+        print(json.dumps({k: rec[k] for k in ("format", "version", "firnray_version",
+                                              "created_utc", "profile", "antenna_z", "grid",
+                                              "chunk_shape")}, indent=2))
+        return 0
+    profile = _load(args)
+    x = _parse_grid("distance", args.distance)
+    z = _parse_grid("source-z", args.source_z)
+    executor = None
+    client = None
+    if args.scheduler:
+        try:
+            from distributed import Client
+        except ImportError:
+            raise UsageError("--scheduler needs the 'distributed' package "
+                             "(pip install dask distributed)") from None
+        client = Client(args.scheduler)
+        executor = client.get_executor()
+    elif args.processes:
+        executor = "processes"
+    try:
+        table = table_study.build_table(profile, args.antenna_z, x, z, args.folder,
+                                        chunk_shape=(args.chunk, args.chunk), executor=executor,
+                                        max_workers=args.processes or None, progress=True)
+    except ValueError as err:
+        raise UsageError(str(err)) from None
+    finally:
+        if client is not None:
+            client.close()
+    rep = table.interpolation_error(n_points=2000)
+    err = rep[("travel_time", 0)]
+    print(f"table written to {args.folder}: {len(z)} x {len(x)} nodes; interpolation error "
+          f"of the first travel time between the nodes: max {err['max']:.3g} ns, "
+          f"99th percentile {err['p99']:.3g} ns")
+    return 0
+
+
 def _cmd_profiles(args):
     for name in firnray.bundled_profiles():
         prof = firnray.load_profile(name)
@@ -90,29 +242,79 @@ def _cmd_profiles(args):
     return 0
 
 
+def _profile_arg(p):
+    p.add_argument("--profile", default=firnray.medium.files.DEFAULT_PROFILE,
+                   help="bundled profile name or YAML file (default: %(default)s)")
+
+
 def build_parser():
     parser = _Parser(prog="firnray", description="Radio rays through polar firn and ice.")
     parser.add_argument("--version", action="version", version=firnray.__version__)
     sub = parser.add_subparsers(dest="command", parser_class=_Parser)
     p = sub.add_parser("rays", help="every ray between a source and a receiver")
-    p.add_argument("--profile", default=firnray.medium.files.DEFAULT_PROFILE,
-                   help="bundled profile name or YAML file (default: %(default)s)")
+    _profile_arg(p)
     p.add_argument("--source", required=True,
-                   help="source X,Z or X,Y,Z [m]; z is height, negative in the ice "
-                        "(write --source=-5,-600 when X is negative)")
+                   help="source X,Z or X,Y,Z [m]; z is height, negative in the ice")
     p.add_argument("--receiver", required=True, help="receiver X,Z or X,Y,Z [m]")
     p.add_argument("--json", action="store_true", help="print JSON instead of a table")
     p.set_defaults(func=_cmd_rays)
+    p = sub.add_parser("shadow", help="shadow boundary (largest reach) per source height")
+    _profile_arg(p)
+    p.add_argument("--antenna-z", type=float, required=True, help="antenna height [m]")
+    p.add_argument("--source-z", default="-2000:-1:21", help="source heights START:STOP:COUNT [m]")
+    p.add_argument("--distance", default="0:4000:400",
+                   help="distances for the map START:STOP:COUNT [m]")
+    p.add_argument("--plot", help="write the shadow-zone map to this PNG file")
+    p.set_defaults(func=_cmd_shadow)
+    p = sub.add_parser("delays", help="D/R delays on a grid, or a distance from a delay")
+    _profile_arg(p)
+    p.add_argument("--antenna-z", type=float, required=True, help="antenna height [m]")
+    p.add_argument("--source-z", default="-2000:-50:40", help="source heights START:STOP:COUNT [m]")
+    p.add_argument("--distance", default="0:3000:61", help="distances START:STOP:COUNT [m]")
+    p.add_argument("--plot", help="write delay contours to this PNG file")
+    p.add_argument("--invert", type=float, help="measured delay [ns] to turn into a distance")
+    p.add_argument("--at-z", type=float, help="source height [m] for --invert")
+    p.set_defaults(func=_cmd_delays)
+    p = sub.add_parser("table", help="build or inspect a lookup table")
+    p.add_argument("action", choices=["build", "info"])
+    p.add_argument("folder", help="table folder")
+    _profile_arg(p)
+    p.add_argument("--antenna-z", type=float, default=-100.0, help="antenna height [m]")
+    p.add_argument("--source-z", default="-2000:0:201", help="source heights START:STOP:COUNT [m]")
+    p.add_argument("--distance", default="0:3000:301", help="distances START:STOP:COUNT [m]")
+    p.add_argument("--chunk", type=int, default=64, help="chunk edge in nodes")
+    p.add_argument("--processes", type=int, default=0, help="local worker processes")
+    p.add_argument("--scheduler", help="address of a dask scheduler to run the chunks on")
+    p.set_defaults(func=_cmd_table)
     p = sub.add_parser("profiles", help="list the bundled profiles")
     p.set_defaults(func=_cmd_profiles)
     return parser
+
+
+def _join_negative_values(argv):
+    """Let '--source-z -2000:-1:8' mean '--source-z=-2000:-1:8' (argparse would
+    take a value starting with '-' for an option)."""
+    out = []
+    i = 0
+    while i < len(argv):
+        tok = argv[i]
+        if (tok.startswith("--") and "=" not in tok and i + 1 < len(argv)
+                and argv[i + 1].startswith("-") and not argv[i + 1].startswith("--")
+                and len(argv[i + 1]) > 1 and (argv[i + 1][1].isdigit() or argv[i + 1][1] == ".")):
+            out.append(f"{tok}={argv[i + 1]}")
+            i += 2
+            continue
+        out.append(tok)
+        i += 1
+    return out
 
 
 def main(argv=None):
     """Run the command line; returns the exit code."""
     parser = build_parser()
     try:
-        args = parser.parse_args(argv)
+        argv = sys.argv[1:] if argv is None else list(argv)
+        args = parser.parse_args(_join_negative_values(argv))
         if args.command is None:
             parser.print_help()
             return 2
@@ -120,6 +322,9 @@ def main(argv=None):
     except UsageError as err:
         print(f"firnray: error: {err}", file=sys.stderr)
         return 2
+    except BrokenPipeError:  # output piped into a reader that stopped (head, less)
+        sys.stderr.close()
+        return 0
 
 
 if __name__ == "__main__":

@@ -87,6 +87,7 @@ def dr_delays(profile, antenna_z, distance, source_z, workers=None):
     xx, zz = np.meshgrid(x, z)
     src = np.column_stack([np.zeros(xx.size), zz.reshape(-1)])
     rcv = np.column_stack([xx.reshape(-1), np.full(xx.size, antenna_z)])
+    src[(rcv[:, 0] == 0.0) & (src[:, 1] == antenna_z), 1] = np.nan  # the antenna itself
     return DelayGrid(x, z, antenna_z, find_rays_many(profile, src, rcv, workers=workers))
 
 
