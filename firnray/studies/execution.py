@@ -17,6 +17,9 @@ def chunk_slices(n, size):
 def run_tasks(func, tasks, executor=None, max_workers=None):
     """Yield ``(key, result)`` for each ``(key, task)`` as it finishes.
 
+    If a task fails, the results of all the others are still yielded, then
+    the first failure is raised.
+
     Parameters
     ----------
     func : callable
@@ -44,10 +47,18 @@ def run_tasks(func, tasks, executor=None, max_workers=None):
     elif not hasattr(executor, "submit"):
         raise ValueError(f"executor must be None, 'processes' or a "
                          f"concurrent.futures.Executor, got {executor!r}")
+    failure = None
     try:
         futures = {executor.submit(func, task): key for key, task in tasks}
         for fut in cf.as_completed(futures):
-            yield futures[fut], fut.result()
+            try:
+                result = fut.result()
+            except Exception as err:  # keep every other finished chunk, then re-raise
+                failure = failure or err
+                continue
+            yield futures[fut], result
+        if failure is not None:
+            raise failure
     finally:
         if own is not None:
             own.shutdown(cancel_futures=True)

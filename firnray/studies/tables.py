@@ -303,8 +303,16 @@ def bilinear(values, x0, dx, nx, z0, dz, nz, x, z, out):
         iz = min(int(fz), nz - 2)
         tx = fx - ix
         tz = fz - iz
-        out[i] = ((1.0 - tz) * ((1.0 - tx) * values[iz, ix] + tx * values[iz, ix + 1])
-                  + tz * ((1.0 - tx) * values[iz + 1, ix] + tx * values[iz + 1, ix + 1]))
+        acc = 0.0
+        for dz_ in range(2):
+            wz = tz if dz_ == 1 else 1.0 - tz
+            if wz == 0.0:
+                continue  # on a node line: the other row does not matter (may be NaN)
+            for dx_ in range(2):
+                wx = tx if dx_ == 1 else 1.0 - tx
+                if wx != 0.0:
+                    acc += wz * wx * values[iz + dz_, ix + dx_]
+        out[i] = acc
 
 
 class LookupTable:
@@ -312,6 +320,8 @@ class LookupTable:
 
     Attributes
     ----------
+    folder : str
+        Where the table lies on disk.
     distance, source_z : ndarray
         Grid axes [m].
     antenna_z : float
@@ -326,7 +336,8 @@ class LookupTable:
         ``count`` (nz, nx).
     """
 
-    def __init__(self, record, data):
+    def __init__(self, record, data, folder=None):
+        self.folder = folder
         self.provenance = record
         self.distance = _axis_values(record["grid"]["distance"])
         self.source_z = _axis_values(record["grid"]["source_z"])
@@ -391,7 +402,7 @@ class LookupTable:
         Returns
         -------
         dict
-            ``{(quantity, ray): {"max": ..., "p99": ..., "points": n}}`` in
+            ``{(quantity, ray): {"max", "p99", "median", "points"}}`` in
             the quantity's unit, plus ``"missing"``: the fraction of points
             where the exact solver has a ray the table cannot interpolate.
         """
@@ -411,9 +422,11 @@ class LookupTable:
                 both = np.isfinite(got) & np.isfinite(want)
                 missing = max(missing, int(np.sum(np.isfinite(want) & ~np.isfinite(got))))
                 err = np.abs(got[both] - want[both])
-                report[(q, ray)] = {"max": float(err.max()) if err.size else math.nan,
-                                    "p99": float(np.percentile(err, 99)) if err.size else math.nan,
-                                    "points": int(both.sum())}
+                report[(q, ray)] = {
+                    "max": float(err.max()) if err.size else math.nan,
+                    "p99": float(np.percentile(err, 99)) if err.size else math.nan,
+                    "median": float(np.median(err)) if err.size else math.nan,
+                    "points": int(both.sum())}
         report["missing"] = missing / n_points
         return report
 
@@ -447,4 +460,4 @@ def open_table(folder):
     if missing:
         raise TableError(f"{folder}: incomplete table, {len(missing)} chunk(s) missing "
                          f"(first: {missing[0]}); rerun the same build to finish it")
-    return LookupTable(record, data)
+    return LookupTable(record, data, folder)
