@@ -1,0 +1,64 @@
+"""Plots return their axes and write valid PNG files; the study commands run."""
+
+import matplotlib
+
+matplotlib.use("Agg")
+
+import matplotlib.pyplot as plt  # noqa: E402
+import numpy as np  # noqa: E402
+import pytest  # noqa: E402
+
+import firnray  # noqa: E402
+from firnray.faces import plots  # noqa: E402
+from firnray.faces.cli import main  # noqa: E402
+
+PNG = b"\x89PNG\r\n\x1a\n"
+PROF = firnray.load_profile("demo-dry-firn")
+
+
+def test_plot_functions_take_and_return_axes(tmp_path):
+    fig, (ax1, ax2, ax3, ax4) = plt.subplots(1, 4)
+    rays = firnray.find_rays(PROF, (0.0, -300.0), (900.0, -100.0))
+    got, prof_ax = plots.plot_rays(PROF, rays, ax=ax1, profile_ax=ax2)
+    assert got is ax1 and prof_ax is ax2 and len(ax1.lines) >= 2
+    x, z = np.linspace(0, 2000, 50), np.linspace(-800, -1, 40)
+    reach, boundary = firnray.reachability_map(PROF, -100.0, x, z)
+    assert plots.plot_shadow_map(x, z, reach, boundary, ax=ax3, antenna_z=-100.0) is ax3
+    grid = firnray.dr_delays(PROF, -100.0, x, z)
+    assert plots.plot_delay_contours(grid, ax=ax4) is ax4
+    fig.savefig(tmp_path / "f.png")
+    assert (tmp_path / "f.png").read_bytes()[:8] == PNG
+    plt.close("all")
+
+
+def test_shadow_and_delay_commands(tmp_path, capsys):
+    png = tmp_path / "map.png"
+    assert main(["shadow", "--antenna-z", "-100", "--source-z", "-1000:-10:5",
+                 "--distance", "0:3000:60", "--plot", str(png)]) == 0
+    out = capsys.readouterr().out
+    assert "shadow boundary" in out and png.read_bytes()[:8] == PNG
+    value = firnray.shadow_boundary(PROF, -100.0, -1000.0)
+    assert f"{value:.2f}" in out
+    png = tmp_path / "dr.png"
+    assert main(["delays", "--antenna-z", "-100", "--distance", "0:2000:21",
+                 "--source-z", "-1500:-200:14", "--plot", str(png)]) == 0
+    assert png.read_bytes()[:8] == PNG
+    assert main(["delays", "--antenna-z", "-100", "--invert", "150", "--at-z", "-600"]) == 0
+    assert "distance" in capsys.readouterr().out
+
+
+def test_table_commands(tmp_path, capsys):
+    folder = tmp_path / "t"
+    assert main(["table", "build", str(folder), "--antenna-z", "-100",
+                 "--source-z", "-500:-10:11", "--distance", "0:1000:11", "--chunk", "4"]) == 0
+    assert "interpolation error" in capsys.readouterr().out
+    assert main(["table", "info", str(folder)]) == 0
+    assert '"firnray-lookup-table"' in capsys.readouterr().out
+    assert main(["table", "info", str(tmp_path)]) == 2
+
+
+@pytest.mark.parametrize("argv", [["shadow", "--antenna-z", "-100", "--source-z", "1:2"],
+                                  ["delays", "--antenna-z", "-100", "--invert", "5"]])
+def test_study_commands_bad_input(argv, capsys):
+    assert main(argv) == 2
+    assert capsys.readouterr().err.startswith("firnray: error:")
