@@ -14,6 +14,7 @@ tables, chunked execution) -> ``faces`` (command line, plots).
 """
 
 from firnray.errors import FirnrayWarning, ProfileFileError
+from firnray.version import __version__
 from firnray.medium.files import bundled_profiles, load_profile
 from firnray.medium.profiles import ExponentialProfile, IndexProfile
 from firnray.rays.results import KIND_CODES, KIND_NAMES, Ray, RaySet
@@ -22,7 +23,6 @@ from firnray.studies.delays import DelayGrid, DelayInversion, distance_from_dela
 from firnray.studies.shadow import reachability_map, shadow_boundary
 from firnray.studies.tables import LookupTable, TableError, build_table, open_table
 
-__version__ = "0.1.0"
 
 __all__ = [
     "DelayGrid",

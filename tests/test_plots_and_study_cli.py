@@ -62,3 +62,14 @@ def test_table_commands(tmp_path, capsys):
 def test_study_commands_bad_input(argv, capsys):
     assert main(argv) == 2
     assert capsys.readouterr().err.startswith("firnray: error:")
+
+
+@pytest.mark.parametrize("name", firnray.bundled_profiles())
+def test_study_commands_on_every_bundled_profile(name, tmp_path, capsys):
+    assert main(["shadow", "--profile", name, "--antenna-z", "-60", "--source-z",
+                 "-400:-5:4"]) == 0
+    assert main(["delays", "--profile", name, "--antenna-z", "-60", "--distance", "0:800:5",
+                 "--source-z", "-400:-100:4"]) == 0
+    assert main(["table", "build", str(tmp_path / name), "--profile", name, "--antenna-z", "-60",
+                 "--distance", "0:800:9", "--source-z", "-400:-5:9", "--chunk", "5"]) == 0
+    assert capsys.readouterr().out.count("\n") > 10

@@ -28,6 +28,7 @@ from firnray.medium.profiles import ExponentialProfile
 from firnray.rays import exponential_kernels as ek
 from firnray.rays.solve import check_profile, find_rays_many
 from firnray.studies.execution import chunk_slices, run_tasks
+from firnray.version import __version__
 
 FORMAT = "firnray-lookup-table"
 VERSION = 1
@@ -220,7 +221,6 @@ def build_table(profile, antenna_z, distance, source_z, folder, chunk_shape=(64,
     if (not isinstance(chunk_shape, (tuple, list)) or len(chunk_shape) != 2
             or not all(isinstance(c, (int, np.integer)) and c >= 1 for c in chunk_shape)):
         raise ValueError(f"chunk_shape must be two integers >= 1, got {chunk_shape!r}")
-    from firnray import __version__
     record = {"format": FORMAT, "version": VERSION, "firnray_version": __version__,
               "created_utc": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"),
               "profile": _profile_record(profile), "antenna_z": antenna_z,

@@ -1,0 +1,3 @@
+"""Package version (a leaf module: no firnray imports)."""
+
+__version__ = "0.1.0"
