@@ -5,6 +5,8 @@
     firnray delays [--profile ...] --antenna-z Z [--source-z A:B:N] [--distance A:B:N] [--plot PNG]
                    [--invert DELAY --at-z Z]
     firnray table build|info ...
+    firnray vertex predict|fit|validate ...
+    firnray profile-fit --station S --delays CSV [--free n_surface,scale_depth]
     firnray profiles
 
 Bad input exits with code 2 and a one-line message on stderr.
@@ -234,6 +236,126 @@ def _cmd_table(args):
     return 0
 
 
+def _station(args):
+    from firnray.studies.station import load_station
+    try:
+        return load_station(args.station)
+    except ValueError as err:
+        raise UsageError(str(err)) from None
+
+
+def _cmd_vertex(args):
+    from firnray.studies import reconstruction, timing_files, vertex
+    if args.action == "validate":
+        if not args.csv:
+            raise UsageError("vertex validate needs --csv FILE (true and fitted vertices)")
+        try:
+            report = reconstruction.validate_reconstruction(
+                reconstruction.read_vertex_csv(args.csv))
+        except ValueError as err:
+            raise UsageError(str(err)) from None
+        if args.json:
+            print(json.dumps(report.as_dict(), indent=2))
+        else:
+            print("\n".join(report.summary()))
+        if args.plot:
+            import matplotlib.pyplot as plt
+            from firnray.faces.plots import plot_pulls, plot_vertex_residuals
+            fig, axes = plt.subplots(1, 2 if report.has_pulls else 1, figsize=(10, 4),
+                                     squeeze=False)
+            plot_vertex_residuals(report, ax=axes[0, 0])
+            if report.has_pulls:
+                plot_pulls(report, ax=axes[0, 1])
+            print(f"figure written to {_save(fig, args.plot)}")
+        return 0
+    station = _station(args)
+    profile = firnray.load_profile(args.profile or station.profile or
+                                   firnray.medium.files.DEFAULT_PROFILE)
+    if args.action == "predict":
+        if not args.vertex:
+            raise UsageError("vertex predict needs --vertex X,Y,Z")
+        point = _parse_point("vertex", args.vertex)
+        if len(point) != 3:
+            raise UsageError("--vertex expects X,Y,Z in metres")
+        pred = vertex.predict_arrivals(profile, station, point, args.emission_time)
+        rows = pred.rows(0)
+        if args.json:
+            print(json.dumps({"vertex": list(point), "emission_time_ns": args.emission_time,
+                              "pulses": [{"antenna": a, "ray": k, "kind": kind,
+                                          "arrival_time_ns": t, "arrival_zenith_deg": z}
+                                         for a, k, kind, t, z in rows]}, indent=2))
+            return 0
+        print(f"station {station.name}, profile {profile.info.get('name', '')}: vertex "
+              f"{point} m emitting at {args.emission_time} ns")
+        print(f"{'antenna':<10}{'ray':>4}{'kind':>12}{'arrival [ns]':>16}{'zenith [deg]':>14}"
+              f"{'D/R [ns]':>11}")
+        for a, k, kind, t, z in rows:
+            i = station.index(a)
+            dr = pred.dr_delay[0, i]
+            dr_text = f"{dr:.2f}" if (k == 1 and np.isfinite(dr)) else ""
+            print(f"{a:<10}{k:>4}{kind:>12}{t:>16.3f}{z:>14.3f}{dr_text:>11}")
+        missing = [a for i, a in enumerate(station.ids) if pred.count[0, i] == 0]
+        if missing:
+            print(f"no ray (shadow zone) at: {', '.join(missing)}")
+        return 0
+    if not args.times:
+        raise UsageError("vertex fit needs --times CSV (antenna,time_ns,sigma_ns)")
+    try:
+        rows = timing_files.read_arrivals_csv(args.times)
+        fit = vertex.fit_vertex(profile, station, rows)
+    except ValueError as err:
+        raise UsageError(str(err)) from None
+    names = ("x [m]", "y [m]", "z [m]", "t0 [ns]")
+    values = list(fit.vertex) + [fit.emission_time]
+    if args.json:
+        print(json.dumps({"vertex_m": list(fit.vertex), "emission_time_ns": fit.emission_time,
+                          "sigma": list(fit.sigma), "covariance": fit.covariance.tolist(),
+                          "chi2": fit.chi2, "ndof": fit.ndof,
+                          "multiple_minima": fit.multiple_minima, "success": fit.success},
+                         indent=2))
+    else:
+        print(f"vertex fit on station {station.name} ({len(rows)} pulses): chi2 = "
+              f"{fit.chi2:.2f} for {fit.ndof} degrees of freedom")
+        for n, v, e in zip(names, values, fit.sigma):
+            print(f"  {n:<8} {v:>12.3f} +- {e:.3f}")
+        if fit.multiple_minima:
+            print("  warning: another distinct minimum is within the chi2 margin:")
+            for v, t0, c in fit.alternatives:
+                print(f"    ({v[0]:.1f}, {v[1]:.1f}, {v[2]:.1f}) m, chi2 {c:.2f}")
+    if args.plot:
+        import matplotlib.pyplot as plt
+        from firnray.faces.plots import plot_timing_residuals
+        ids = list(dict.fromkeys(fit.antenna_ids))
+        per = [np.array([r for r, a in zip(fit.residuals, fit.antenna_ids) if a == ident])
+               for ident in ids]
+        fig, ax = plt.subplots(figsize=(8, 4))
+        plot_timing_residuals(ids, per, ax=ax)
+        ax.set_ylabel("timing residual [sigma]")
+        print(f"figure written to {_save(fig, args.plot)}")
+    return 0
+
+
+def _cmd_profile_fit(args):
+    from firnray.studies import profile_fit, timing_files
+    station = _station(args)
+    initial = _load(args)
+    free = tuple(f.strip() for f in args.free.split(",") if f.strip())
+    try:
+        data = timing_files.read_pulser_csv(args.delays, station)
+        fit = profile_fit.fit_profile_to_delays(data, initial, free=free)
+    except ValueError as err:
+        raise UsageError(str(err)) from None
+    if args.json:
+        print(json.dumps({"parameters": dict(zip(fit.names, map(float, fit.values))),
+                          "sigma": dict(zip(fit.names, map(float, fit.sigma))),
+                          "correlation": fit.correlation.tolist(), "chi2": fit.chi2,
+                          "ndof": fit.ndof, "success": fit.success}, indent=2))
+    else:
+        print(f"profile fit to {len(data)} pulser D/R delays (start: {initial.info.get('name', '')})")
+        print("\n".join(fit.summary()))
+    return 0
+
+
 def _cmd_profiles(args):
     for name in firnray.bundled_profiles():
         prof = firnray.load_profile(name)
@@ -286,6 +408,29 @@ def build_parser():
     p.add_argument("--processes", type=int, default=0, help="local worker processes")
     p.add_argument("--scheduler", help="address of a dask scheduler to run the chunks on")
     p.set_defaults(func=_cmd_table)
+    p = sub.add_parser("vertex", help="predict pulses, fit a vertex, validate reconstructions")
+    p.add_argument("action", choices=["predict", "fit", "validate"])
+    p.add_argument("--station", default="tallow-dome-demo",
+                   help="station name or YAML file (default: %(default)s)")
+    p.add_argument("--profile", default=None,
+                   help="profile name or YAML file (default: the station's profile)")
+    p.add_argument("--vertex", help="predict: source position X,Y,Z [m]")
+    p.add_argument("--emission-time", type=float, default=0.0, help="predict: [ns]")
+    p.add_argument("--times", help="fit: CSV of antenna,time_ns,sigma_ns")
+    p.add_argument("--csv", help="validate: CSV of true and fitted vertices")
+    p.add_argument("--json", action="store_true", help="print JSON")
+    p.add_argument("--plot", help="write a figure (fit: timing residuals; validate: "
+                                  "residuals and pulls) to this PNG file")
+    p.set_defaults(func=_cmd_vertex)
+    p = sub.add_parser("profile-fit", help="fit the firn profile to pulser D/R delays")
+    p.add_argument("--station", default="tallow-dome-demo", help="station name or YAML file")
+    _profile_arg(p)
+    p.add_argument("--delays", required=True,
+                   help="CSV of pulser_x_m,pulser_y_m,pulser_z_m,antenna,delay_ns,sigma_ns")
+    p.add_argument("--free", default="n_surface,scale_depth",
+                   help="parameters to fit, from n_deep,n_surface,scale_depth")
+    p.add_argument("--json", action="store_true", help="print JSON")
+    p.set_defaults(func=_cmd_profile_fit)
     p = sub.add_parser("profiles", help="list the bundled profiles")
     p.set_defaults(func=_cmd_profiles)
     return parser

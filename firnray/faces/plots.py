@@ -130,3 +130,153 @@ def plot_delay_contours(grid, ax=None, levels=None):
     ax.set_ylabel("source height z [m]")
     ax.set_title("D/R delay [ns]", fontsize=9)
     return ax
+
+
+RESIDUAL_COLOURS = {"x": "tab:blue", "y": "tab:orange", "z": "tab:green"}
+
+
+def plot_vertex_residuals(report, ax=None, bins=None):
+    """Overlaid histograms of the vertex residuals (fitted - true) per coordinate.
+
+    Parameters
+    ----------
+    report : ReconstructionReport
+        From ``firnray.studies.reconstruction.validate_reconstruction``.
+    ax : matplotlib Axes, optional
+        Axes to draw on; None makes a new figure.
+    bins : int, optional
+        Number of bins [1], shared by the three coordinates; None picks
+        ``2 N**(1/3)`` (at least 8).
+
+    Returns
+    -------
+    Axes
+    """
+    r = _report_array(report, "residual")
+    ax = _axes(ax, figsize=(7, 4.5))
+    edges = np.histogram_bin_edges(r, bins=_bin_count(bins, r.shape[0]))
+    for j, c in enumerate(("x", "y", "z")):
+        ax.hist(r[:, j], bins=edges, histtype="step", lw=1.5, color=RESIDUAL_COLOURS[c],
+                label=f"{c}: bias {report.bias[j]:+.2f} m, "
+                      f"resolution {report.resolution[j]:.2f} m")
+    ax.axvline(0.0, color="0.4", lw=0.8)
+    ax.set_xlabel("vertex residual, fitted - true [m]")
+    ax.set_ylabel("events per bin")
+    ax.set_title(f"{r.shape[0]} events; resolution: half width of the central 68.27 %",
+                 fontsize=9)
+    ax.legend(loc="upper right", fontsize=8)
+    return ax
+
+
+def plot_pulls(report, ax=None, bins=None):
+    """Histograms of the pulls (residual / sigma) per coordinate with a unit Gaussian.
+
+    Parameters
+    ----------
+    report : ReconstructionReport
+        Made with uncertainties (``report.pull`` is not None).
+    ax : matplotlib Axes, optional
+        Axes to draw on; None makes a new figure.
+    bins : int, optional
+        Number of bins [1] over the drawn range (at least -4 to 4); None
+        picks ``2 N**(1/3)`` (at least 8).
+
+    Returns
+    -------
+    Axes
+        Histograms normalised to all N events (a probability density [1]),
+        so that pulls outside the drawn range lower the curve; the legend
+        counts them.
+    """
+    p = _report_array(report, "pull")
+    ax = _axes(ax, figsize=(7, 4.5))
+    n = p.shape[0]
+    lim = min(10.0, max(4.0, float(np.max(np.abs(p)))))
+    edges = np.linspace(-lim, lim, _bin_count(bins, n) + 1)
+    width = edges[1] - edges[0]
+    for j, c in enumerate(("x", "y", "z")):
+        outside = int(np.sum(np.abs(p[:, j]) > lim))
+        extra = f", {outside} outside" if outside else ""
+        ax.hist(p[:, j], bins=edges, weights=np.full(n, 1.0 / (n * width)), histtype="step",
+                lw=1.5, color=RESIDUAL_COLOURS[c],
+                label=f"{c}: width {report.pull_width[j]:.2f}, "
+                      f"coverage {report.coverage[j]:.2f}{extra}")
+    u = np.linspace(-lim, lim, 400)
+    ax.plot(u, np.exp(-0.5 * u ** 2) / np.sqrt(2.0 * np.pi), "k--", lw=1.2,
+            label="unit Gaussian")
+    ax.set_xlabel("pull, (fitted - true) / sigma [1]")
+    ax.set_ylabel("density [1]")
+    ax.set_title(f"{n} events; expected: width 1, coverage 0.683", fontsize=9)
+    ax.legend(loc="upper right", fontsize=8)
+    return ax
+
+
+def plot_timing_residuals(antenna_ids, residuals_ns, ax=None):
+    """Timing residuals [ns] per antenna as box plots with the single values beside them.
+
+    Parameters
+    ----------
+    antenna_ids : sequence of str
+        Antenna names, one per entry of ``residuals_ns``.
+    residuals_ns : sequence of array_like
+        Per antenna, the timing residuals (measured - predicted arrival
+        time) [ns] of the events; non-finite values are left out.
+    ax : matplotlib Axes, optional
+        Axes to draw on; None makes a new figure.
+
+    Returns
+    -------
+    Axes
+    """
+    ids = [str(a) for a in antenna_ids]
+    try:
+        groups = [np.asarray(v, dtype=float).reshape(-1) for v in residuals_ns]
+    except (TypeError, ValueError):
+        raise ValueError("residuals_ns must be a sequence of arrays of numbers [ns], "
+                         "one per antenna") from None
+    if len(groups) != len(ids):
+        raise ValueError(f"residuals_ns must hold one array per antenna "
+                         f"({len(ids)} antenna_ids), got {len(groups)} arrays")
+    if not ids:
+        raise ValueError("antenna_ids must name at least one antenna, got none")
+    groups = [g[np.isfinite(g)] for g in groups]
+    ax = _axes(ax, figsize=(max(5.0, 0.6 * len(ids) + 2.0), 4.5))
+    positions = np.arange(1, len(ids) + 1)
+    filled = [i for i, g in enumerate(groups) if g.size]
+    if filled:
+        ax.boxplot([groups[i] for i in filled], positions=positions[filled], widths=0.5,
+                   showfliers=False, manage_ticks=False)
+    rng = np.random.default_rng(0)  # fixed jitter: the same figure every time
+    for i in filled:
+        jitter = rng.uniform(-0.12, 0.12, groups[i].size)
+        ax.plot(positions[i] + 0.3 + jitter, groups[i], ".", color="tab:blue", ms=3,
+                alpha=0.6)
+    for i, g in enumerate(groups):
+        if not g.size:
+            ax.text(positions[i], 0.0, "no data", ha="center", va="bottom", fontsize=8,
+                    color="0.4")
+    ax.axhline(0.0, color="0.4", lw=0.8)
+    ax.set_xticks(positions)
+    crowded = len(ids) > 6
+    ax.set_xticklabels(ids, rotation=45 if crowded else 0, ha="right" if crowded else "center")
+    ax.set_xlim(0.4, len(ids) + 0.8)
+    ax.set_xlabel("antenna")
+    ax.set_ylabel("timing residual, measured - predicted [ns]")
+    return ax
+
+
+def _report_array(report, name):
+    values = getattr(report, name, None)
+    if values is None:
+        what = ("a ReconstructionReport made with sigma (uncertainties)" if name == "pull"
+                else "a ReconstructionReport")
+        raise ValueError(f"report must be {what}; it has no {name!r}")
+    return np.asarray(values, dtype=float)
+
+
+def _bin_count(bins, n):
+    if bins is None:
+        return max(8, int(round(2.0 * n ** (1.0 / 3.0))))
+    if isinstance(bins, bool) or not isinstance(bins, (int, np.integer)) or bins < 1:
+        raise ValueError(f"bins must be an integer >= 1, got {bins!r}")
+    return int(bins)
