@@ -10,7 +10,8 @@ The public API (see ``docs/guide.md``)::
 Layers (one folder each; a module imports only from its own layer or lower
 ones): ``medium`` (index profiles, files) -> ``rays`` (closed-form kernels,
 root finding, results) -> ``studies`` (shadow zones, D/R delays, lookup
-tables, chunked execution) -> ``faces`` (command line, plots).
+tables, chunked execution, stations, vertex fits, profile fits, reconstruction
+checks) -> ``faces`` (command line, plots).
 """
 
 from firnray.errors import FirnrayWarning, ProfileFileError
@@ -20,11 +21,31 @@ from firnray.medium.profiles import ExponentialProfile, IndexProfile
 from firnray.rays.results import KIND_CODES, KIND_NAMES, Ray, RaySet
 from firnray.rays.solve import find_rays, find_rays_many
 from firnray.studies.delays import DelayGrid, DelayInversion, distance_from_delay, dr_delays
+from firnray.studies.profile_fit import PulserDelays, ProfileFit, fit_profile_to_delays
+from firnray.studies.reconstruction import (ReconstructionReport, VertexSample, read_vertex_csv,
+                                            validate_reconstruction)
 from firnray.studies.shadow import reachability_map, shadow_boundary
+from firnray.studies.station import Station, load_station
+from firnray.studies.vertex import (ArrivalPrediction, VertexFit, fit_vertex, predict_arrivals,
+                                    simulate_arrivals)
 from firnray.studies.tables import LookupTable, TableError, build_table, open_table
 
 
 __all__ = [
+    "ArrivalPrediction",
+    "ProfileFit",
+    "PulserDelays",
+    "ReconstructionReport",
+    "Station",
+    "VertexFit",
+    "VertexSample",
+    "fit_profile_to_delays",
+    "fit_vertex",
+    "load_station",
+    "predict_arrivals",
+    "read_vertex_csv",
+    "simulate_arrivals",
+    "validate_reconstruction",
     "DelayGrid",
     "DelayInversion",
     "ExponentialProfile",

@@ -73,3 +73,44 @@ def test_study_commands_on_every_bundled_profile(name, tmp_path, capsys):
     assert main(["table", "build", str(tmp_path / name), "--profile", name, "--antenna-z", "-60",
                  "--distance", "0:800:9", "--source-z", "-400:-5:9", "--chunk", "5"]) == 0
     assert capsys.readouterr().out.count("\n") > 10
+
+
+DEMO = "firnray/data/examples"
+
+
+def test_vertex_and_profile_fit_commands(tmp_path, capsys):
+    import os
+    root = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
+    demo = os.path.join(root, DEMO)
+    assert main(["vertex", "predict", "--vertex", "640,-310,-820", "--json"]) == 0
+    doc = __import__("json").loads(capsys.readouterr().out)
+    assert len(doc["pulses"]) >= 12
+    png = tmp_path / "res.png"
+    assert main(["vertex", "fit", "--times", os.path.join(demo, "demo-arrivals.csv"),
+                 "--plot", str(png)]) == 0
+    out = capsys.readouterr().out
+    assert "chi2" in out and png.read_bytes()[:8] == PNG
+    # the demo file was simulated for (640, -310, -820) m with 1 ns noise
+    fit_line = [line for line in out.splitlines() if line.strip().startswith("x [m]")][0]
+    assert abs(float(fit_line.split()[2]) - 640.0) < 40.0
+    png = tmp_path / "val.png"
+    assert main(["vertex", "validate", "--csv", os.path.join(demo, "demo-vertex-fits.csv"),
+                 "--plot", str(png)]) == 0
+    assert "resolution" in capsys.readouterr().out and png.read_bytes()[:8] == PNG
+    assert main(["profile-fit", "--delays", os.path.join(demo, "demo-pulser-delays.csv"),
+                 "--json"]) == 0
+    fitdoc = __import__("json").loads(capsys.readouterr().out)
+    assert abs(fitdoc["parameters"]["scale_depth"] - 40.0) < 3 * fitdoc["sigma"]["scale_depth"]
+
+
+def test_vertex_fit_bad_timing_file(tmp_path, capsys):
+    f = tmp_path / "t.csv"
+    f.write_text("antenna,time_ns,sigma_ns\nA1-top,100.0,1.0\nZZ-9,200.0,1.0\n"
+                 "A1-mid,nan,1.0\nA1-bot,5,1\n")
+    assert main(["vertex", "fit", "--times", str(f)]) == 2
+    err = capsys.readouterr().err
+    assert "line 4" in err and "time_ns" in err
+    f.write_text("antenna,time_ns,sigma_ns\nA1-top,100.0,1.0\nZZ-9,200.0,1.0\n"
+                 "A1-mid,120,1.0\nA1-bot,5,1\n")
+    assert main(["vertex", "fit", "--times", str(f)]) == 2
+    assert "ZZ-9" in capsys.readouterr().err
