@@ -94,3 +94,41 @@ def shoot(index, source_z, invariant, upward, x_end, bounce=True, rtol=1e-12, at
             y[1] = -1e-12
         state = y
     return None
+
+
+def reach_at_height(index, source_z, launch_zenith_deg, target_z, descending, bounce=True,
+                    rtol=1e-12, atol=1e-12, max_step=2.0):
+    """Horizontal distance [m] at which a ray from (0, source_z) launched at the
+    given zenith crosses height target_z (going down if ``descending``), with a
+    specular bounce at the surface; None if it never does.  Used for finite
+    differences of the traced reach with respect to the launch angle."""
+    index_in_firn, dndz, _ = index
+    theta = math.radians(launch_zenith_deg)
+    n0 = index_in_firn(source_z)
+    y = np.array([0.0, source_z, n0 * math.sin(theta), n0 * math.cos(theta)])
+
+    def rhs(s, y):
+        nz = index_in_firn(y[1])
+        return [y[2] / nz, y[3] / nz, 0.0, dndz(y[1])]
+
+    def cross_target(s, y):
+        return y[1] - target_z
+    cross_target.terminal = True
+    cross_target.direction = -1 if descending else 1
+
+    def cross_surface(s, y):
+        return y[1]
+    cross_surface.terminal = True
+    cross_surface.direction = 1
+
+    for _ in range(3):
+        sol = solve_ivp(rhs, (0.0, 1e6), y, method="DOP853", rtol=rtol, atol=atol,
+                        events=[cross_target, cross_surface], max_step=max_step)
+        if sol.t_events[0].size:
+            return float(sol.y_events[0][0][0])
+        if not sol.t_events[1].size or not bounce:
+            return None
+        y = sol.y_events[1][0].copy()
+        y[3] = -y[3]
+        y[1] = -1e-12
+    return None

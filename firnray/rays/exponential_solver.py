@@ -54,8 +54,9 @@ HALF_PI = 0.5 * math.pi
 MAX_ITER = 200
 
 # Output columns of the float result array, per ray.
-COL_INVARIANT, COL_TIME, COL_LENGTH, COL_LAUNCH, COL_ARRIVAL, COL_TURNING, COL_SLOWNESS = range(7)
-N_COLS = 7
+(COL_INVARIANT, COL_TIME, COL_LENGTH, COL_LAUNCH, COL_ARRIVAL, COL_TURNING, COL_SLOWNESS,
+ COL_SPREAD) = range(8)
+N_COLS = 8
 
 
 @kernel
@@ -214,7 +215,8 @@ def up_family_peak(pair):
 
 @kernel
 def store_ray(out, kinds, conv, i, k, code, b, c_time, length, launch, arrival,
-              turning, slowness, converged):
+              turning, slowness, converged, spread):
+    out[i, k, COL_SPREAD] = spread
     out[i, k, COL_INVARIANT] = b
     out[i, k, COL_TIME] = c_time / C_M_PER_NS
     out[i, k, COL_LENGTH] = length
@@ -224,6 +226,30 @@ def store_ray(out, kinds, conv, i, k, code, b, c_time, length, launch, arrival,
     out[i, k, COL_SLOWNESS] = slowness
     kinds[i, k] = code
     conv[i, k] = converged
+
+
+@kernel
+def equivalent_distance(x, dx_dpsi, w_lo, n_lo, n_hi, b, swapped, length):
+    """Equivalent spreading distance R_eq [m] of a ray between two ice points.
+
+    Energy in the ray tube of a point source (``docs/theory.md`` section 7):
+    the power flux at the receiver is P / (4 pi R_eq^2) with
+    R_eq^2 = X |dX/dtheta_0| |cos theta_r| / sin theta_0.  With the family
+    parameter psi (elevation at z_hi, b = n_hi cos psi, p = n_hi sin psi) and
+    dX/db = -(dX/dpsi)/p:
+
+    * source at z_lo: R_eq^2 = X |dX/dpsi| w_lo n_lo / (n_hi b)
+    * source at z_hi: R_eq^2 = X |dX/dpsi| w_lo n_hi / (n_lo b)
+
+    Straight down or up (X = 0 or b = 0) the limit is the path length.
+    """
+    if x <= 0.0 or b <= 0.0:
+        return length
+    if swapped:
+        r2 = x * abs(dx_dpsi) * w_lo * n_hi / (n_lo * b)
+    else:
+        r2 = x * abs(dx_dpsi) * w_lo * n_lo / (n_hi * b)
+    return math.sqrt(r2)
 
 
 @kernel
@@ -237,6 +263,8 @@ def store_ice_ray(out, kinds, conv, i, k, up, psi, converged, swapped, pair):
     x = b * sd / q
     length = s * sh + a * sd / q
     c_time = s * sw + a * s * sh + q * sd + b * x
+    dx_dpsi = -p * a * a * sd / (q * q * q) + b * slope / q
+    spread = equivalent_distance(x, dx_dpsi, w_lo, pair[5], pair[8], b, swapped, length)
     turning = math.nan
     if code == 1:
         turning = turning_height(a, delta, s, b, q)
@@ -250,7 +278,7 @@ def store_ice_ray(out, kinds, conv, i, k, up, psi, converged, swapped, pair):
     else:
         launch, arrival = theta_lo, theta_hi
     store_ray(out, kinds, conv, i, k, code, b, c_time, length, launch, arrival,
-              turning, p, converged)
+              turning, p, converged, spread)
 
 
 @kernel
@@ -279,7 +307,7 @@ def solve_uniform_ice(out, kinds, conv, i, n, x_target, z_src, z_rcv, mirror):
         if mirror:
             launch, arrival = math.pi - launch, math.pi - arrival
         store_ray(out, kinds, conv, i, k, code, n * x_target / length, n * length, length,
-                  launch, arrival, math.nan, abs(n * dz / length), True)
+                  launch, arrival, math.nan, abs(n * dz / length), True, length)
         k += 1
     return k
 
@@ -357,8 +385,17 @@ def solve_air_ice_pair(out, kinds, conv, i, a, delta, s, n_air, x_target, z_src,
         launch, arrival = math.pi - phi, math.pi - theta_ice
     else:
         launch, arrival = theta_ice, phi
+    x_all, dx_dphi = transmitted_distance(phi, h, n_air, pair)
+    n_lo = pair[5]
+    if source_in_air:
+        # source zenith phi in the air; receiver cos(theta) = w_lo / n_lo
+        r2 = x_all * abs(dx_dphi) * (w_lo / n_lo) / max(math.sin(phi), 1e-300)
+    else:
+        # source in the ice: d(theta_0) = db / w_lo, db = n_air cos(phi) dphi
+        r2 = x_all * abs(dx_dphi) * w_lo * n_lo / (n_air * max(b, 1e-300))
+    spread = math.sqrt(r2) if x_target > 0.0 else length
     store_ray(out, kinds, conv, i, 0, TRANSMITTED, b, c_time, length, launch, arrival,
-              math.nan, p, ok)
+              math.nan, p, ok, spread)
     return 1
 
 

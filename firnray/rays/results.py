@@ -49,14 +49,20 @@ class Ray:
         Whether the root finder met its tolerance.
     source, receiver : ndarray, shape (3,)
         End points (x, y, z) [m].
+    equivalent_distance : float
+        Geometric spreading as a distance [m]: the power flux of a point
+        source at the receiver is P / (4 pi R^2) with R this distance (the
+        straight-line distance in a uniform medium; smaller where the firn
+        focuses rays).  See ``docs/theory.md`` section 7.
     """
 
     __slots__ = ("kind", "invariant", "travel_time", "path_length", "launch_zenith",
                  "arrival_zenith", "turning_z", "converged", "source", "receiver",
-                 "_profile", "_slowness")
+                 "equivalent_distance", "_profile", "_slowness")
 
     def __init__(self, profile, source, receiver, kind, invariant, travel_time, path_length,
-                 launch_zenith, arrival_zenith, turning_z, converged, slowness):
+                 launch_zenith, arrival_zenith, turning_z, converged, slowness,
+                 equivalent_distance=math.nan):
         self._profile = profile
         self.source = source
         self.receiver = receiver
@@ -69,6 +75,7 @@ class Ray:
         self.turning_z = turning_z
         self.converged = converged
         self._slowness = slowness
+        self.equivalent_distance = equivalent_distance
 
     def __repr__(self):
         turn = "None" if self.turning_z is None else f"{self.turning_z:.3f}"
@@ -77,9 +84,64 @@ class Ray:
                 f"arrival_zenith={self.arrival_zenith:.4f} deg, "
                 f"path_length={self.path_length:.4f} m, turning_z={turn})")
 
+    @property
+    def straight_distance(self):
+        """Straight-line distance between source and receiver [m]."""
+        return float(np.linalg.norm(self.receiver - self.source))
+
+    @property
+    def focusing(self):
+        """Amplitude focusing relative to straight-line 1/R: straight distance / R_eq [1]."""
+        return self.straight_distance / self.equivalent_distance
+
+    def pieces(self):
+        """Monotone pieces of the ray in the ice, from the source side.
+
+        Returns
+        -------
+        list of (z_low, z_high, ends_at_turning_point)
+            Heights [m] bounding each piece where the ray moves monotonically
+            in z below the surface; air legs are not included.
+        """
+        zs, zr = float(self.source[2]), float(self.receiver[2])
+        if self.kind == "transmitted":
+            z_ice = zs if zs <= 0.0 else zr
+            return [(z_ice, 0.0, False)] if z_ice < 0.0 else []
+        if zs > 0.0 and zr > 0.0:
+            return []
+        lo, hi = min(zs, zr), max(zs, zr)
+        if self.kind == "direct":
+            return [(lo, hi, False)]
+        top = self.turning_z if self.kind == "refracted" else 0.0
+        turning = self.kind == "refracted"
+        return [(lo, top, turning), (hi, top, turning)]
+
+    def vertical_slowness(self, z):
+        """w(z) = sqrt(n(z)^2 - b^2) along the ray at heights z [m] in the ice [1].
+
+        Formed from the vertical slowness at the ray's reference level (no
+        cancellation for near-horizontal rays); 0 at a turning point.
+        """
+        a, delta, s, n_air = self._profile.parameters
+        zz = np.asarray(z, dtype=float)
+        u = np.exp(np.minimum(zz, 0.0) / s)
+        n = a - delta * u
+        if self.kind == "transmitted":
+            u_ref, n_ref = 1.0, a - delta
+        elif delta == 0.0:
+            u_ref, n_ref = 1.0, a
+        else:
+            z_hi = max(float(self.source[2]), float(self.receiver[2]))
+            u_ref = math.exp(z_hi / s)
+            n_ref = a - delta * u_ref
+        w2 = delta * (u_ref - u) * (n + n_ref) + self._slowness ** 2
+        out = np.sqrt(np.maximum(w2, 0.0))
+        return float(out) if out.ndim == 0 else out
+
     def as_dict(self):
         """The ray's quantities as a plain dict (units as the attributes)."""
         return {"kind": self.kind, "travel_time": self.travel_time,
+                "equivalent_distance": self.equivalent_distance,
                 "path_length": self.path_length, "launch_zenith": self.launch_zenith,
                 "arrival_zenith": self.arrival_zenith, "invariant": self.invariant,
                 "turning_z": self.turning_z, "converged": self.converged}
@@ -225,6 +287,8 @@ class RaySet:
         Snell invariant [1].
     turning_z : ndarray, shape (N, K)
         Turning height of refracted rays [m], NaN for other kinds.
+    equivalent_distance : ndarray, shape (N, K)
+        Geometric spreading distance R_eq [m] (see ``Ray.equivalent_distance``).
     kind : ndarray of int8, shape (N, K)
         Kind codes (see ``kind_names``), -1 where there is no ray.
     kind_names : dict
@@ -254,6 +318,7 @@ class RaySet:
         self.launch_zenith = self._table[:, :, es.COL_LAUNCH]
         self.arrival_zenith = self._table[:, :, es.COL_ARRIVAL]
         self.turning_z = self._table[:, :, es.COL_TURNING]
+        self.equivalent_distance = self._table[:, :, es.COL_SPREAD]
 
     def __len__(self):
         return self.count.shape[0]
@@ -280,5 +345,6 @@ class RaySet:
                             float(row[es.COL_TIME]), float(row[es.COL_LENGTH]),
                             float(row[es.COL_LAUNCH]), float(row[es.COL_ARRIVAL]),
                             None if math.isnan(turning) else float(turning),
-                            bool(self.converged[i, k]), float(row[es.COL_SLOWNESS])))
+                            bool(self.converged[i, k]), float(row[es.COL_SLOWNESS]),
+                            float(row[es.COL_SPREAD])))
         return rays
