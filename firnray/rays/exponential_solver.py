@@ -37,8 +37,13 @@ from firnray.rays.exponential_kernels import (
     family_d,
     family_distance,
     family_sums,
+    g_value,
     kernel,
     pair_state,
+    segment_d,
+    segment_extras,
+    slope_factor,
+    slowness_sq,
     turning_height,
 )
 
@@ -46,7 +51,7 @@ from firnray.rays.exponential_kernels import (
 MAX_RAYS = 2
 
 #: Kind codes used in the result arrays (see ``firnray.rays.results``).
-DIRECT, REFRACTED, REFLECTED, TRANSMITTED = 0, 1, 2, 3
+DIRECT, REFRACTED, REFLECTED, TRANSMITTED, LAYER_REFLECTED = 0, 1, 2, 3, 4
 
 C_M_PER_NS = SPEED_OF_LIGHT
 
@@ -55,8 +60,8 @@ MAX_ITER = 200
 
 # Output columns of the float result array, per ray.
 (COL_INVARIANT, COL_TIME, COL_LENGTH, COL_LAUNCH, COL_ARRIVAL, COL_TURNING, COL_SLOWNESS,
- COL_SPREAD) = range(8)
-N_COLS = 8
+ COL_SPREAD, COL_LAYER) = range(9)
+N_COLS = 9
 
 
 @kernel
@@ -79,10 +84,105 @@ def transmitted_distance(phi, h, n_air, pair):
 
 
 @kernel
+def layer_pack(a, delta, s, z_layer, z_lo, z_hi):
+    """The 12 floats describing a layer bounce (same tuple type as ``pair_state``):
+    (a, delta, s, z_layer, z_lo, z_hi, 0, ...)."""
+    return (a, delta, s, z_layer, z_lo, z_hi, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0)
+
+
+@kernel
+def layer_family(psi, pack):
+    """A ray from z_lo down to a reflecting layer at z_layer and up to z_hi.
+
+    Two monotone pieces, z_layer -> z_hi and z_layer -> z_lo, share the
+    invariant b = n_hi cos(psi) (psi the elevation of the ray at z_hi, where
+    it arrives going up); each is a direct segment (``docs/theory.md``
+    equations 2.5-2.8), so X = (b/q)(D_1 + D_2) and the slope adds the two
+    pieces' terms as for the direct family.
+
+    Returns
+    -------
+    x, dx_dpsi, q, sum_d, sum_ln_h, sum_dw, w_lo : float
+    """
+    a, delta, s, z_layer, z_lo, z_hi = pack[0], pack[1], pack[2], pack[3], pack[4], pack[5]
+    p_hi = pair_state(a, delta, s, z_layer, z_hi)
+    p_lo = pair_state(a, delta, s, z_layer, z_lo)
+    u_l, n_l, u_hi, n_hi = p_hi[4], p_hi[5], p_hi[7], p_hi[8]
+    u_lo, n_lo = p_lo[7], p_lo[8]
+    b = n_hi * math.cos(psi)
+    p = n_hi * math.sin(psi)
+    q = math.sqrt(delta * u_hi * (a + n_hi) + p * p)
+    w_l = math.sqrt(max(slowness_sq(delta, u_hi, n_hi, u_l, n_l, p), 0.0))
+    w_lo = math.sqrt(max(slowness_sq(delta, u_hi, n_hi, u_lo, n_lo, p), 0.0))
+    g_l = g_value(delta, q, u_l, n_l, w_l)
+    g_hi = g_value(delta, q, u_hi, n_hi, p)
+    g_lo = g_value(delta, q, u_lo, n_lo, w_lo)
+    d1 = segment_d(a, s, q, z_hi - z_layer, p_hi[9], n_l, w_l, g_l, n_hi, p, g_hi)
+    d2 = segment_d(a, s, q, z_lo - z_layer, p_lo[9], n_l, w_l, g_l, n_lo, w_lo, g_lo)
+    k_l = slope_factor(delta, u_l, g_l)
+    k_hi = slope_factor(delta, u_hi, g_hi)
+    k_lo = slope_factor(delta, u_lo, g_lo)
+    r_l = p / w_l if w_l > 0.0 else 1.0
+    r_lo = p / w_lo if w_lo > 0.0 else 1.0
+    pre = s * b / q
+    slope = -pre * (k_hi - k_l * r_l) - pre * (k_lo * r_lo - k_l * r_l)
+    sd = d1 + d2
+    h1, dw1 = segment_extras(p_hi[9], n_l, w_l, n_hi, p)
+    h2, dw2 = segment_extras(p_lo[9], n_l, w_l, n_lo, w_lo)
+    x = b * sd / q
+    dx = -p * a * a * sd / (q * q * q) + b * slope / q
+    return x, dx, q, sd, h1 + h2, dw1 + dw2, w_lo
+
+
+@kernel
+def solve_layer_pair(out, kinds, conv, i, k, a, delta, s, x_target, z_src, z_rcv, z_layer,
+                     layer_index):
+    """The ray that bounces once off a horizontal reflector at z_layer below both
+    points (both in the ice); stored in slot k.  Returns 1 if it exists, else 0."""
+    swapped = z_src > z_rcv
+    z_lo, z_hi = (z_rcv, z_src) if swapped else (z_src, z_rcv)
+    if not z_layer < z_lo:
+        return 0
+    pack = layer_pack(a, delta, s, z_layer, z_lo, z_hi)
+    if delta == 0.0:
+        x_horizon = math.inf      # uniform index: straight lines reach any distance
+    else:
+        x_horizon = layer_family(0.0, pack)[0]
+    if not x_target < x_horizon:
+        return 0
+    guess = math.atan2((z_hi - z_layer) + (z_lo - z_layer), x_target)
+    lo_t = 0.0 if delta > 0.0 else 1e-300
+    f_lo = x_horizon - x_target if delta > 0.0 else math.inf
+    psi, ok = polish_root(3, x_target, lo_t, f_lo, HALF_PI, -x_target, guess, 0.0, 1.0, pack)
+    x, dx, q, sd, sh, sw, w_lo = layer_family(psi, pack)
+    n_hi = a - delta * math.exp(z_hi / s)
+    n_lo = a - delta * math.exp(z_lo / s)
+    b = n_hi * math.cos(psi)
+    p = n_hi * math.sin(psi)
+    length = s * sh + a * sd / q
+    c_time = s * sw + a * s * sh + q * sd + b * x
+    theta_lo = math.atan2(b, w_lo)            # at z_lo, the ray travels down then up
+    theta_hi = HALF_PI - psi                  # arrives at z_hi going up
+    if swapped:   # source at z_hi (leaves going down), receiver at z_lo (arrives going up)
+        launch, arrival = math.pi - theta_hi, theta_lo
+    else:         # source at z_lo (leaves going down), receiver at z_hi
+        launch, arrival = math.pi - theta_lo, theta_hi
+    spread = equivalent_distance(x, dx, w_lo, n_lo, n_hi, b, swapped, length)
+    store_ray(out, kinds, conv, i, k, LAYER_REFLECTED, b, c_time, length, launch, arrival,
+              math.nan, p, ok, spread)
+    out[i, k, COL_LAYER] = layer_index
+    return 1
+
+
+@kernel
 def evaluate(mode, t, h, n_air, pair):
-    """Distance and slope of family ``mode`` (0 direct, 1 up-going, 2 transmitted)."""
+    """Distance and slope of family ``mode`` (0 direct, 1 up-going, 2 transmitted,
+    3 bounce off a reflecting layer; ``pair`` from :func:`layer_pack` then)."""
     if mode == 2:
         return transmitted_distance(t, h, n_air, pair)
+    if mode == 3:
+        x, dx, q, sd, sh, sw, w_lo = layer_family(t, pair)
+        return x, dx
     return family_distance(mode == 1, t, pair)
 
 
@@ -217,6 +317,7 @@ def up_family_peak(pair):
 def store_ray(out, kinds, conv, i, k, code, b, c_time, length, launch, arrival,
               turning, slowness, converged, spread):
     out[i, k, COL_SPREAD] = spread
+    out[i, k, COL_LAYER] = math.nan
     out[i, k, COL_INVARIANT] = b
     out[i, k, COL_TIME] = c_time / C_M_PER_NS
     out[i, k, COL_LENGTH] = length
@@ -411,9 +512,10 @@ def solve_pair(out, kinds, conv, i, a, delta, s, n_air, x_target, z_src, z_rcv):
 
 
 @kernel
-def solve_row(i, a, delta, s, n_air, x_target, z_src, z_rcv, out, kinds, conv, count):
-    """Solve pair i and order its rays by travel time (see :func:`solve_pairs`)."""
-    for k in range(MAX_RAYS):
+def solve_row(i, a, delta, s, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, count):
+    """Solve pair i (and its bounces off ``layers``) and order its rays by travel time."""
+    n_slots = out.shape[1]
+    for k in range(n_slots):
         for c in range(N_COLS):
             out[i, k, c] = math.nan
         kinds[i, k] = -1
@@ -422,22 +524,31 @@ def solve_row(i, a, delta, s, n_air, x_target, z_src, z_rcv, out, kinds, conv, c
     if not (math.isfinite(x) and math.isfinite(zs) and math.isfinite(zr)):
         count[i] = 0
         return
-    count[i] = solve_pair(out, kinds, conv, i, a, delta, s, n_air, x, zs, zr)
-    if count[i] == 2 and out[i, 1, COL_TIME] < out[i, 0, COL_TIME]:
-        for c in range(N_COLS):
-            tmp = out[i, 0, c]
-            out[i, 0, c] = out[i, 1, c]
-            out[i, 1, c] = tmp
-        kk = kinds[i, 0]
-        kinds[i, 0] = kinds[i, 1]
-        kinds[i, 1] = kk
-        cc = conv[i, 0]
-        conv[i, 0] = conv[i, 1]
-        conv[i, 1] = cc
+    n = solve_pair(out, kinds, conv, i, a, delta, s, n_air, x, zs, zr)
+    if zs <= 0.0 and zr <= 0.0:
+        for j in range(layers.shape[0]):
+            n += solve_layer_pair(out, kinds, conv, i, n, a, delta, s, x, zs, zr,
+                                  layers[j], float(j))
+    count[i] = n
+    # insertion sort of the n rays by travel time
+    for m in range(1, n):
+        j = m
+        while j > 0 and out[i, j, COL_TIME] < out[i, j - 1, COL_TIME]:
+            for c in range(N_COLS):
+                tmp = out[i, j, c]
+                out[i, j, c] = out[i, j - 1, c]
+                out[i, j - 1, c] = tmp
+            kk = kinds[i, j]
+            kinds[i, j] = kinds[i, j - 1]
+            kinds[i, j - 1] = kk
+            cc = conv[i, j]
+            conv[i, j] = conv[i, j - 1]
+            conv[i, j - 1] = cc
+            j -= 1
 
 
 @numba.njit(parallel=True, **KERNEL_OPTIONS)
-def solve_pairs(a, delta, s, n_air, x_target, z_src, z_rcv, out, kinds, conv, count):
+def solve_pairs(a, delta, s, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, count):
     """Solve every pair, in parallel over numba threads.
 
     Parameters
@@ -451,7 +562,10 @@ def solve_pairs(a, delta, s, n_air, x_target, z_src, z_rcv, out, kinds, conv, co
     x_target, z_src, z_rcv : ndarray, shape (N,)
         Horizontal distance [m], source and receiver heights [m].  A row with
         a NaN is skipped (count 0).
-    out : ndarray, shape (N, MAX_RAYS, N_COLS)
+    layers : ndarray, shape (L,)
+        Heights of horizontal reflectors [m] (may be empty); a pair in the
+        ice above a layer also gets the ray that bounces off it once.
+    out : ndarray, shape (N, MAX_RAYS + L, N_COLS)
         Receives the ray quantities (NaN where there is no ray).
     kinds : ndarray of int8, shape (N, MAX_RAYS)
         Receives the kind codes (-1 where no ray).
@@ -461,21 +575,29 @@ def solve_pairs(a, delta, s, n_air, x_target, z_src, z_rcv, out, kinds, conv, co
         Receives the number of rays per pair.
     """
     for i in numba.prange(x_target.shape[0]):
-        solve_row(i, a, delta, s, n_air, x_target, z_src, z_rcv, out, kinds, conv, count)
+        solve_row(i, a, delta, s, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv,
+                  count)
 
 
 @kernel
-def solve_pairs_serial(a, delta, s, n_air, x_target, z_src, z_rcv, out, kinds, conv, count):
+def solve_pairs_serial(a, delta, s, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv,
+                       count):
     """:func:`solve_pairs` on the calling thread only (cheaper for a few pairs)."""
     for i in range(x_target.shape[0]):
-        solve_row(i, a, delta, s, n_air, x_target, z_src, z_rcv, out, kinds, conv, count)
+        solve_row(i, a, delta, s, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv,
+                  count)
 
 
-def allocate(n_pairs):
+#: No reflecting layers (the default).
+NO_LAYERS = np.empty(0)
+
+
+def allocate(n_pairs, n_layers=0):
     """Output arrays for ``solve_pairs``: (out, kinds, conv, count), uninitialised
     (every row is written by the kernel)."""
-    out = np.empty((n_pairs, MAX_RAYS, N_COLS))
-    kinds = np.empty((n_pairs, MAX_RAYS), dtype=np.int8)
-    conv = np.empty((n_pairs, MAX_RAYS), dtype=np.bool_)
+    k = MAX_RAYS + n_layers
+    out = np.empty((n_pairs, k, N_COLS))
+    kinds = np.empty((n_pairs, k), dtype=np.int8)
+    conv = np.empty((n_pairs, k), dtype=np.bool_)
     count = np.empty(n_pairs, dtype=np.int64)
     return out, kinds, conv, count

@@ -14,7 +14,7 @@ from firnray.rays import exponential_solver as es
 
 #: Kind code -> name, as stored in ``RaySet.kind`` (-1 where there is no ray).
 KIND_NAMES = {es.DIRECT: "direct", es.REFRACTED: "refracted", es.REFLECTED: "reflected",
-              es.TRANSMITTED: "transmitted"}
+              es.TRANSMITTED: "transmitted", es.LAYER_REFLECTED: "layer-reflected"}
 #: Kind name -> code.
 KIND_CODES = {name: code for code, name in KIND_NAMES.items()}
 
@@ -33,7 +33,8 @@ class Ray:
     Attributes
     ----------
     kind : str
-        "direct", "refracted", "reflected" or "transmitted".
+        "direct", "refracted", "reflected", "transmitted", or
+        "layer-reflected" (off a configured ``Reflector``).
     invariant : float
         Snell invariant b = n(z) sin(zenith) [1].
     travel_time : float
@@ -54,15 +55,27 @@ class Ray:
         source at the receiver is P / (4 pi R^2) with R this distance (the
         straight-line distance in a uniform medium; smaller where the firn
         focuses rays).  See ``docs/theory.md`` section 7.
+    reflector : Reflector or None
+        The layer a "layer-reflected" ray bounced off.
     """
+
+    @property
+    def bounce_z(self):
+        """Height of the bounce [m]: 0 for a surface reflection, the layer's
+        height for a layer reflection, None otherwise."""
+        if self.kind == "reflected":
+            return 0.0
+        if self.kind == "layer-reflected":
+            return self.reflector.z
+        return None
 
     __slots__ = ("kind", "invariant", "travel_time", "path_length", "launch_zenith",
                  "arrival_zenith", "turning_z", "converged", "source", "receiver",
-                 "equivalent_distance", "_profile", "_slowness")
+                 "equivalent_distance", "reflector", "_profile", "_slowness")
 
     def __init__(self, profile, source, receiver, kind, invariant, travel_time, path_length,
                  launch_zenith, arrival_zenith, turning_z, converged, slowness,
-                 equivalent_distance=math.nan):
+                 equivalent_distance=math.nan, reflector=None):
         self._profile = profile
         self.source = source
         self.receiver = receiver
@@ -76,6 +89,7 @@ class Ray:
         self.converged = converged
         self._slowness = slowness
         self.equivalent_distance = equivalent_distance
+        self.reflector = reflector
 
     def __repr__(self):
         turn = "None" if self.turning_z is None else f"{self.turning_z:.3f}"
@@ -112,6 +126,8 @@ class Ray:
         lo, hi = min(zs, zr), max(zs, zr)
         if self.kind == "direct":
             return [(lo, hi, False)]
+        if self.kind == "layer-reflected":
+            return [(self.reflector.z, zs, False), (self.reflector.z, zr, False)]
         top = self.turning_z if self.kind == "refracted" else 0.0
         turning = self.kind == "refracted"
         return [(lo, top, turning), (hi, top, turning)]
@@ -180,6 +196,8 @@ class Ray:
         """
         if not isinstance(n_points, (int, np.integer)) or n_points < 2:
             raise ValueError(f"n_points must be an integer >= 2, got {n_points!r}")
+        if self.kind == "layer-reflected":
+            return _layer_path(self, int(n_points))
         return ray_path(self._profile, self.source, self.receiver, self.kind,
                         self.invariant, self._slowness, int(n_points))
 
@@ -203,6 +221,29 @@ def _rising(z1, z2, n, towards_top, s):
     zz = np.unique(np.concatenate([in_z, np.clip(in_u, z1, z2)]))
     zz[0], zz[-1] = z1, z2
     return zz
+
+
+def _layer_path(ray, n_points):
+    """Points of a layer-reflected ray: down from the source to the layer, up to the receiver."""
+    a, delta, s, n_air = ray._profile.parameters
+    zs, zr = float(ray.source[2]), float(ray.receiver[2])
+    z_hi = max(zs, zr)
+    u_hi = math.exp(z_hi / s)
+    n_hi = a - delta * u_hi
+    b, p = ray.invariant, ray._slowness
+    q = math.sqrt(delta * u_hi * (a + n_hi) + p * p)
+    ref = (u_hi, n_hi, p)
+    zl = ray.reflector.z
+    down = _rising(zl, zs, n_points, False, s)[::-1]
+    x_down = np.array([_segment_x(a, delta, s, b, q, ref, zl, z) for z in down])
+    x_bottom = x_down[0]
+    x_down = x_bottom - x_down
+    up = _rising(zl, zr, n_points, False, s)[1:]
+    x_up = x_bottom + np.array([_segment_x(a, delta, s, b, q, ref, zl, z) for z in up])
+    out = np.empty(len(down) + len(up), dtype=PATH_DTYPE)
+    out["x"] = np.concatenate([x_down, x_up])
+    out["z"] = np.concatenate([down, up])
+    return out
 
 
 def ray_path(profile, source, receiver, kind, b, p, n_points):
@@ -239,6 +280,8 @@ def ray_path(profile, source, receiver, kind, b, p, n_points):
         out = np.empty(len(xx), dtype=PATH_DTYPE)
         out["x"], out["z"] = xx, zz
         return out
+    elif kind == "layer-reflected":
+        raise ValueError("pass the reflector: use Ray.path()")
     else:
         swapped = zs > zr
         z_lo, z_hi = (zr, zs) if swapped else (zs, zr)
@@ -299,12 +342,16 @@ class RaySet:
         Number of rays per pair (0 in a shadow zone or for an invalid row).
     sources, receivers : ndarray, shape (N, 3)
         The pairs (x, y, z) [m].
+    reflectors : list of Reflector
+        The reflecting layers the rays were found with.
     """
 
     kind_names = KIND_NAMES
 
-    def __init__(self, profile, sources, receivers, table, kinds, converged, count):
+    def __init__(self, profile, sources, receivers, table, kinds, converged, count,
+                 reflectors=()):
         self.profile = profile
+        self.reflectors = list(reflectors)
         self.sources = sources
         self.receivers = receivers
         k = max(int(count.max()) if count.size else 0, 1)
@@ -346,5 +393,7 @@ class RaySet:
                             float(row[es.COL_LAUNCH]), float(row[es.COL_ARRIVAL]),
                             None if math.isnan(turning) else float(turning),
                             bool(self.converged[i, k]), float(row[es.COL_SLOWNESS]),
-                            float(row[es.COL_SPREAD])))
+                            float(row[es.COL_SPREAD]),
+                            None if math.isnan(row[es.COL_LAYER])
+                            else self.reflectors[int(row[es.COL_LAYER])]))
         return rays

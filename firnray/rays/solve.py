@@ -12,6 +12,7 @@ import numpy as np
 from firnray.checks import point, points
 from firnray.errors import FirnrayWarning
 from firnray.medium.profiles import ExponentialProfile, IndexProfile
+from firnray.medium.reflectors import Reflector
 from firnray.rays import exponential_solver as es
 from firnray.rays.results import RaySet
 
@@ -41,7 +42,17 @@ def _check_workers(workers):
     return int(workers)
 
 
-def solve_arrays(profile, sources, receivers, workers=None):
+def _layers(reflectors):
+    if reflectors is None:
+        return [], es.NO_LAYERS
+    items = list(reflectors)
+    for i, r in enumerate(items):
+        if not isinstance(r, Reflector):
+            raise ValueError(f"reflectors[{i}] must be a firnray.Reflector, got {r!r}")
+    return items, np.array([r.z for r in items], dtype=float)
+
+
+def solve_arrays(profile, sources, receivers, workers=None, reflectors=None):
     """Run the solver on (N, 3) arrays of sources and receivers; returns a RaySet.
 
     Rows with a NaN, coincident points or a point below the profile's valid
@@ -60,24 +71,27 @@ def solve_arrays(profile, sources, receivers, workers=None):
         warnings.warn(f"{int(same.sum())} pair(s) with coincident source and receiver and "
                       f"{int(below.sum())} with a point below the profile's valid range "
                       f"(z >= {profile.z_min} m) give no ray", FirnrayWarning, stacklevel=3)
-    table, kinds, conv, count = es.allocate(x.shape[0])
+    items, layers = _layers(reflectors)
+    if np.any(layers < profile.z_min):
+        raise ValueError(f"reflectors lie below the profile's valid range (z >= {profile.z_min} m)")
+    table, kinds, conv, count = es.allocate(x.shape[0], len(layers))
     a, delta, s, n_air = profile.parameters
     if n_threads == 1 or x.shape[0] < SERIAL_BELOW:
-        es.solve_pairs_serial(a, delta, s, n_air, x, zs, zr, table, kinds, conv, count)
+        es.solve_pairs_serial(a, delta, s, n_air, x, zs, zr, layers, table, kinds, conv, count)
     else:
         previous = numba.get_num_threads()
         numba.set_num_threads(n_threads)
         try:
-            es.solve_pairs(a, delta, s, n_air, x, zs, zr, table, kinds, conv, count)
+            es.solve_pairs(a, delta, s, n_air, x, zs, zr, layers, table, kinds, conv, count)
         finally:
             numba.set_num_threads(previous)
     if not np.all(conv | (kinds < 0)):
         warnings.warn("the root finder did not meet its tolerance for some rays; "
                       "see RaySet.converged", FirnrayWarning, stacklevel=3)
-    return RaySet(profile, sources, receivers, table, kinds, conv, count)
+    return RaySet(profile, sources, receivers, table, kinds, conv, count, items)
 
 
-def find_rays_many(profile, sources, receivers, workers=None):
+def find_rays_many(profile, sources, receivers, workers=None, reflectors=None):
     """Every ray for each of N source-receiver pairs.
 
     Parameters
@@ -89,6 +103,10 @@ def find_rays_many(profile, sources, receivers, workers=None):
         broadcast against the other.  Rows with a NaN give no ray.
     workers : int, optional
         Number of threads (default: all cores numba may use).
+    reflectors : sequence of Reflector, optional
+        Horizontal reflecting layers; each pair in the ice above a layer also
+        gets the ray that bounces off it once (kind "layer-reflected").  Off
+        by default.
 
     Returns
     -------
@@ -113,10 +131,10 @@ def find_rays_many(profile, sources, receivers, workers=None):
             raise ValueError(f"sources and receivers must have the same number of rows or "
                              f"one of them a single point; got {src.shape[0]} and "
                              f"{rcv.shape[0]}")
-    return solve_arrays(profile, src, rcv, workers)
+    return solve_arrays(profile, src, rcv, workers, reflectors)
 
 
-def find_rays(profile, source, receiver):
+def find_rays(profile, source, receiver, reflectors=None):
     """Every ray from ``source`` to ``receiver``, sorted by travel time.
 
     Parameters
@@ -125,6 +143,8 @@ def find_rays(profile, source, receiver):
         The index profile (``ExponentialProfile`` or ``load_profile(...)``).
     source, receiver : sequence of float
         Points (x, z) or (x, y, z) [m]; z is height (negative in the ice).
+    reflectors : sequence of Reflector, optional
+        Horizontal reflecting layers (see :func:`find_rays_many`).
 
     Returns
     -------
@@ -144,4 +164,5 @@ def find_rays(profile, source, receiver):
         raise ValueError(f"source and receiver must differ, both are {tuple(source)!r}")
     profile.check_height("source", src[2])
     profile.check_height("receiver", rcv[2])
-    return solve_arrays(profile, src[None, :], rcv[None, :], workers=1)[0]
+    return solve_arrays(profile, src[None, :], rcv[None, :], workers=1,
+                        reflectors=reflectors)[0]
