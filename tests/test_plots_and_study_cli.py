@@ -114,3 +114,16 @@ def test_vertex_fit_bad_timing_file(tmp_path, capsys):
                  "A1-mid,120,1.0\nA1-bot,5,1\n")
     assert main(["vertex", "fit", "--times", str(f)]) == 2
     assert "ZZ-9" in capsys.readouterr().err
+
+
+def test_budget_command(capsys):
+    assert main(["budget", "--source", "0,-300", "--receiver", "600,-100",
+                 "--freq", "100,300"]) == 0
+    out = capsys.readouterr().out
+    assert "reflected ray" in out and "total s [dB]" in out
+    assert main(["budget", "--source", "0,30", "--receiver", "200,-100", "--freq", "150",
+                 "--attenuation-length", "900", "--json"]) == 0
+    doc = __import__("json").loads(capsys.readouterr().out)
+    ray = doc["rays"][0]
+    assert ray["kind"] == "transmitted" and ray["fresnel_db_p"] > 0
+    assert main(["budget", "--source", "0,-300", "--receiver", "600,-100", "--freq", "x"]) == 2

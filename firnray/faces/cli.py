@@ -7,6 +7,7 @@
     firnray table build|info ...
     firnray vertex predict|fit|validate ...
     firnray profile-fit --station S --delays CSV [--free n_surface,scale_depth]
+    firnray budget [--profile ...] --source X,Z --receiver X,Z --freq 100,200,400
     firnray profiles
 
 Bad input exits with code 2 and a one-line message on stderr.
@@ -356,6 +357,73 @@ def _cmd_profile_fit(args):
     return 0
 
 
+#: Invented demo-site ice column for the default attenuation model of ``budget``.
+DEMO_COLUMN = dict(surface_c=-45.0, accumulation_m_per_yr=0.08, geothermal_flux_w_m2=0.06,
+                   thickness_m=2800.0)
+
+
+def _attenuation(args):
+    from firnray.medium import attenuation, temperature
+    if args.attenuation_length is not None:
+        if not args.attenuation_length > 0:
+            raise UsageError(f"--attenuation-length must be > 0 m, got {args.attenuation_length}")
+        return attenuation.ConstantAttenuation(args.attenuation_length), (
+            f"constant field attenuation length {args.attenuation_length} m")
+    column = temperature.RobinTemperature(**DEMO_COLUMN)
+    return attenuation.ArrheniusAttenuation(column), (
+        "Arrhenius conductivity (MacGregor et al. 2007) in the invented demo ice column "
+        "(Robin 1955 profile, surface -45 C)")
+
+
+def _cmd_budget(args):
+    from firnray.signal.budget import signal_budget
+    source = _parse_point("source", args.source)
+    receiver = _parse_point("receiver", args.receiver)
+    try:
+        freqs = [float(f) for f in args.freq.split(",")]
+    except ValueError:
+        raise UsageError(f"--freq expects comma-separated frequencies in MHz, got {args.freq!r}") from None
+    if not freqs or not all(math.isfinite(f) and f > 0 for f in freqs):
+        raise UsageError(f"--freq expects frequencies > 0 MHz, got {args.freq!r}")
+    model, label = _attenuation(args)
+    try:
+        profile = firnray.load_profile(args.profile)
+        rays = firnray.find_rays(profile, source, receiver)
+    except ValueError as err:
+        raise UsageError(str(err).splitlines()[0]) from None
+    import warnings
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", firnray.FirnrayWarning)
+        budgets = [signal_budget(r, freqs, model) for r in rays]
+    if args.json:
+        print(json.dumps({"source": list(source), "receiver": list(receiver),
+                          "attenuation_model": label, "units": "dB (power flux), MHz",
+                          "rays": [{"kind": b.kind, "travel_time_ns": r.travel_time,
+                                    "equivalent_distance_m": b.equivalent_distance,
+                                    "focusing": b.focusing, "near_caustic": b.near_caustic,
+                                    "spreading_db": b.spreading_db,
+                                    "fresnel_db_s": b.fresnel_db_s, "fresnel_db_p": b.fresnel_db_p,
+                                    "frequencies_mhz": list(b.frequencies),
+                                    "attenuation_db": list(b.attenuation_db),
+                                    "total_db_s": list(b.total_db_s),
+                                    "total_db_p": list(b.total_db_p)}
+                                   for r, b in zip(rays, budgets)]}, indent=2))
+        return 0
+    print("\n".join(rays_table(rays, source, receiver, profile.info.get("name", args.profile))))
+    print(f"\nattenuation: {label}")
+    for r, b in zip(rays, budgets):
+        flag = "  (focusing capped near a caustic)" if b.near_caustic else ""
+        print(f"\n{r.kind} ray: equivalent distance {b.equivalent_distance:.1f} m, focusing "
+              f"{b.focusing:.3f}, surface/layer contact: {b.interaction}{flag}")
+        print(f"{'f [MHz]':>9}{'absorption [dB]':>17}{'spreading [dB]':>16}{'Fresnel s/p [dB]':>19}"
+              f"{'total s [dB]':>14}{'total p [dB]':>14}")
+        for f, att, spr, fs, fp, ts, tp in b.rows():
+            print(f"{f:>9.1f}{att:>17.2f}{spr:>16.2f}{f'{fs:.2f}/{fp:.2f}':>19}{ts:>14.2f}{tp:>14.2f}")
+    for w in caught:
+        print(f"note: {w.message}")
+    return 0
+
+
 def _cmd_profiles(args):
     for name in firnray.bundled_profiles():
         prof = firnray.load_profile(name)
@@ -431,6 +499,16 @@ def build_parser():
                    help="parameters to fit, from n_deep,n_surface,scale_depth")
     p.add_argument("--json", action="store_true", help="print JSON")
     p.set_defaults(func=_cmd_profile_fit)
+    p = sub.add_parser("budget", help="signal budget (path loss per frequency) of every ray")
+    _profile_arg(p)
+    p.add_argument("--source", required=True, help="source X,Z or X,Y,Z [m]")
+    p.add_argument("--receiver", required=True, help="receiver X,Z or X,Y,Z [m]")
+    p.add_argument("--freq", default="100,200,400", help="frequencies [MHz], comma-separated")
+    p.add_argument("--attenuation-length", type=float, default=None,
+                   help="constant field attenuation length [m] (default: Arrhenius model in "
+                        "the invented demo ice column)")
+    p.add_argument("--json", action="store_true", help="print JSON")
+    p.set_defaults(func=_cmd_budget)
     p = sub.add_parser("profiles", help="list the bundled profiles")
     p.set_defaults(func=_cmd_profiles)
     return parser

@@ -141,7 +141,7 @@ class _Model:
         x[same] = np.nan
         table, kinds, conv, count = (self.buffers if v == 1 else es.allocate(v * a))
         solver = es.solve_pairs_serial if v * a < 256 else es.solve_pairs
-        solver(*self.params, x, zs, zr, table, kinds, conv, count)
+        solver(*self.params, x, zs, zr, es.NO_LAYERS, table, kinds, conv, count)
         times = table[:, :, es.COL_TIME].reshape(v, a, 2).copy()
         if not with_slowness:
             return times
