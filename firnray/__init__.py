@@ -9,7 +9,8 @@ The public API (see ``docs/guide.md``)::
 
 Layers (one folder each; a module imports only from its own layer or lower
 ones): ``medium`` (index profiles, files) -> ``rays`` (closed-form kernels,
-root finding, results) -> ``studies`` (shadow zones, D/R delays, lookup
+root finding, results) -> ``signal`` (Fresnel, absorption, spreading, budget)
+-> ``studies`` (shadow zones, D/R delays, lookup
 tables, chunked execution, stations, vertex fits, profile fits, reconstruction
 checks) -> ``faces`` (command line, plots).
 """
@@ -17,9 +18,16 @@ checks) -> ``faces`` (command line, plots).
 from firnray.errors import FirnrayWarning, ProfileFileError
 from firnray.version import __version__
 from firnray.medium.files import bundled_profiles, load_profile
+from firnray.medium.attenuation import (ArrheniusAttenuation, CallableAttenuation,
+                                        ConstantAttenuation, TabulatedAttenuation)
 from firnray.medium.profiles import ExponentialProfile, IndexProfile
+from firnray.medium.reflectors import Reflector
+from firnray.medium.temperature import (LinearTemperature, RobinTemperature,
+                                        TabulatedTemperature)
 from firnray.rays.results import KIND_CODES, KIND_NAMES, Ray, RaySet
 from firnray.rays.solve import find_rays, find_rays_many
+from firnray.signal.budget import SignalBudget, signal_budget, signal_budget_many
+from firnray.signal.fresnel import FresnelCoefficients, fresnel
 from firnray.studies.delays import DelayGrid, DelayInversion, distance_from_delay, dr_delays
 from firnray.studies.profile_fit import PulserDelays, ProfileFit, fit_profile_to_delays
 from firnray.studies.reconstruction import (ReconstructionReport, VertexSample, read_vertex_csv,
@@ -32,6 +40,19 @@ from firnray.studies.tables import LookupTable, TableError, build_table, open_ta
 
 
 __all__ = [
+    "ArrheniusAttenuation",
+    "CallableAttenuation",
+    "ConstantAttenuation",
+    "FresnelCoefficients",
+    "LinearTemperature",
+    "Reflector",
+    "RobinTemperature",
+    "SignalBudget",
+    "TabulatedAttenuation",
+    "TabulatedTemperature",
+    "fresnel",
+    "signal_budget",
+    "signal_budget_many",
     "ArrivalPrediction",
     "ProfileFit",
     "PulserDelays",
