@@ -110,7 +110,8 @@ def test_kill_9_loses_nothing(tmp_path, reference_table):
     chunks = folder / "chunks"
     deadline = time.time() + 120
     while time.time() < deadline:
-        if chunks.exists() and len([f for f in os.listdir(chunks) if f.endswith(".npz")]) >= 3:
+        if chunks.exists() and len([f for f in os.listdir(chunks) if f.endswith(".npz")
+                                    and not f.startswith(".tmp")]) >= 3:
             break
         time.sleep(0.05)
     proc.send_signal(signal.SIGKILL)

@@ -30,7 +30,6 @@ import math
 import numbers
 
 import numpy as np
-from scipy.interpolate import RegularGridInterpolator
 
 from firnray.checks import finite_float, positive_float
 from firnray.constants import SPEED_OF_LIGHT
@@ -427,6 +426,8 @@ class TabulatedAttenuation(AttenuationModel):
             if f_flipped:
                 lengths = lengths[:, ::-1]
             self.length_m = lengths
+            from scipy.interpolate import RegularGridInterpolator  # only here: slow import
+
             self._grid = RegularGridInterpolator((self.z, self.frequency_mhz), lengths,
                                                  method="linear")
 

@@ -25,7 +25,6 @@ Models
 import math
 
 import numpy as np
-from scipy import special
 
 from firnray.checks import finite_float, positive_float
 
@@ -385,6 +384,8 @@ class RobinTemperature(TemperatureProfile):
         ell = self.diffusion_length_m
         upper = self.thickness_m / ell
         lower = (z + self.thickness_m) / ell
+        from scipy import special  # imported on use: keeps `import firnray` fast
+
         # erf(upper) - erf(lower) without cancellation: erfc form for large arguments.
         diff = np.where(lower > 0.5,
                         special.erfc(lower) - special.erfc(upper),

@@ -9,7 +9,6 @@ reports their uncertainties and correlations (from the Jacobian).
 """
 
 import numpy as np
-from scipy.optimize import least_squares
 
 from firnray.medium.profiles import ExponentialProfile
 from firnray.rays.solve import check_profile, find_rays_many
@@ -131,6 +130,8 @@ def fit_profile_to_delays(data, initial, free=("n_surface", "scale_depth")):
         For an unknown parameter name, fewer pairs than free parameters, or
         an invalid initial profile.
     """
+    from scipy.optimize import least_squares  # imported on use: keeps `import firnray` fast
+
     check_profile(initial)
     free = tuple(free)
     for name in free:

@@ -30,7 +30,6 @@ import os
 import warnings
 
 import numpy as np
-from scipy.special import gammaincinv
 
 from firnray.errors import FirnrayWarning
 
@@ -40,7 +39,9 @@ GAUSS_1SIGMA = math.erf(1.0 / math.sqrt(2.0))
 
 #: 68.27 % quantile of the chi-square distribution with 3 degrees of freedom
 #: (3.5267...): the 3-D analogue of |pull| <= 1 for independent Gaussian coordinates.
-CHI2_3DOF_1SIGMA = float(2.0 * gammaincinv(1.5, GAUSS_1SIGMA))
+#: Written out (= 2 gammaincinv(1.5, GAUSS_1SIGMA), checked against scipy.stats in the
+#: tests) so that importing firnray does not load scipy.special.
+CHI2_3DOF_1SIGMA = 3.5267403802617303
 
 #: Factor turning the median absolute deviation into a Gaussian sigma (1 / 0.6745).
 MAD_TO_SIGMA = 1.4826

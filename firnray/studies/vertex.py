@@ -14,7 +14,6 @@ second-best distinct minima are close in chi^2 are flagged.
 import math
 
 import numpy as np
-from scipy.optimize import least_squares
 
 from firnray.checks import finite_float
 from firnray.constants import SPEED_OF_LIGHT
@@ -333,6 +332,8 @@ def fit_vertex(profile, station, arrivals, search_box=None, grid=(9, 9, 8), star
         For an antenna id the station lacks, a NaN time, a sigma <= 0, more
         than two pulses at one antenna, fewer than 4 pulses, or a bad box.
     """
+    from scipy.optimize import least_squares  # imported on use: keeps `import firnray` fast
+
     check_profile(profile)
     data = _Data(station, arrivals)
     if data.n < 4:
