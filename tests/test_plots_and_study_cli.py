@@ -58,7 +58,9 @@ def test_table_commands(tmp_path, capsys):
 
 
 @pytest.mark.parametrize("argv", [["shadow", "--antenna-z", "-100", "--source-z", "1:2"],
-                                  ["delays", "--antenna-z", "-100", "--invert", "5"]])
+                                  ["delays", "--antenna-z", "-100", "--invert", "5"],
+                                  ["vertex", "predict", "--vertex", "1,2,-300",
+                                   "--profile", "nowhere"]])
 def test_study_commands_bad_input(argv, capsys):
     assert main(argv) == 2
     assert capsys.readouterr().err.startswith("firnray: error:")

@@ -64,9 +64,10 @@ def _parse_grid(name, text):
                      f"got {text!r}")
 
 
-def _load(args):
+def _load(args, name=None):
+    """The profile named by ``name`` or ``--profile``; bad names become usage errors."""
     try:
-        return firnray.load_profile(args.profile)
+        return firnray.load_profile(name or args.profile)
     except ValueError as err:
         raise UsageError(str(err).splitlines()[0]) from None
 
@@ -106,8 +107,8 @@ def rays_table(rays, source, receiver, profile_name):
 def _cmd_rays(args):
     source = _parse_point("source", args.source)
     receiver = _parse_point("receiver", args.receiver)
+    profile = _load(args)
     try:
-        profile = firnray.load_profile(args.profile)
         rays = firnray.find_rays(profile, source, receiver)
     except ValueError as err:
         raise UsageError(str(err).splitlines()[0]) from None
@@ -270,8 +271,7 @@ def _cmd_vertex(args):
             print(f"figure written to {_save(fig, args.plot)}")
         return 0
     station = _station(args)
-    profile = firnray.load_profile(args.profile or station.profile or
-                                   firnray.medium.files.DEFAULT_PROFILE)
+    profile = _load(args, args.profile or station.profile or firnray.medium.files.DEFAULT_PROFILE)
     if args.action == "predict":
         if not args.vertex:
             raise UsageError("vertex predict needs --vertex X,Y,Z")
@@ -386,8 +386,8 @@ def _cmd_budget(args):
     if not freqs or not all(math.isfinite(f) and f > 0 for f in freqs):
         raise UsageError(f"--freq expects frequencies > 0 MHz, got {args.freq!r}")
     model, label = _attenuation(args)
+    profile = _load(args)
     try:
-        profile = firnray.load_profile(args.profile)
         rays = firnray.find_rays(profile, source, receiver)
     except ValueError as err:
         raise UsageError(str(err).splitlines()[0]) from None

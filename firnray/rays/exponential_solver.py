@@ -53,7 +53,6 @@ MAX_RAYS = 2
 #: Kind codes used in the result arrays (see ``firnray.rays.results``).
 DIRECT, REFRACTED, REFLECTED, TRANSMITTED, LAYER_REFLECTED = 0, 1, 2, 3, 4
 
-C_M_PER_NS = SPEED_OF_LIGHT
 
 HALF_PI = 0.5 * math.pi
 MAX_ITER = 200
@@ -319,7 +318,7 @@ def store_ray(out, kinds, conv, i, k, code, b, c_time, length, launch, arrival,
     out[i, k, COL_SPREAD] = spread
     out[i, k, COL_LAYER] = math.nan
     out[i, k, COL_INVARIANT] = b
-    out[i, k, COL_TIME] = c_time / C_M_PER_NS
+    out[i, k, COL_TIME] = c_time / SPEED_OF_LIGHT
     out[i, k, COL_LENGTH] = length
     out[i, k, COL_LAUNCH] = math.degrees(launch)
     out[i, k, COL_ARRIVAL] = math.degrees(arrival)

@@ -25,6 +25,7 @@ source projects as E·s and E·p.
 """
 
 import math
+import warnings
 
 import numpy as np
 
@@ -168,8 +169,8 @@ def signal_budget(ray, frequencies, attenuation, focusing_cap=FOCUSING_CAP, node
         r_eq = straight / focusing_cap
         near = True
     prof = ray._profile
-    n_src = prof.index(min(float(ray.source[2]), 0.0)) if ray.source[2] <= 0 else prof.n_air
-    n_rcv = prof.index(min(float(ray.receiver[2]), 0.0)) if ray.receiver[2] <= 0 else prof.n_air
+    n_src = prof.index(float(ray.source[2]))     # n_air above the surface
+    n_rcv = prof.index(float(ray.receiver[2]))
     contact = surface_interaction(ray)
     if contact is None:
         amp_s = amp_p = 1.0 + 0j
@@ -192,7 +193,6 @@ def signal_budget(ray, frequencies, attenuation, focusing_cap=FOCUSING_CAP, node
     spread_db = 20.0 * math.log10(r_eq)
     common = math.sqrt(n_src / n_rcv) / r_eq * np.exp(-absorb)
     if near:
-        import warnings
         warnings.warn(f"{ray.kind} ray focusing capped at {focusing_cap} near a caustic",
                       FirnrayWarning, stacklevel=2)
     return SignalBudget(frequencies=f, absorption=absorb, attenuation_db=att_db,
@@ -215,7 +215,6 @@ def signal_budget_many(rayset, frequencies, attenuation, focusing_cap=FOCUSING_C
         ``near_caustic`` (N, K) bool; ``field_factor_s``, ``field_factor_p``
         (N, K, F) complex.  NaN where there is no ray.
     """
-    import warnings
     f = np.atleast_1d(np.asarray(frequencies, dtype=float))
     n, k = rayset.travel_time.shape
     nanf = np.full((n, k, len(f)), np.nan)

@@ -10,7 +10,7 @@ import numpy as np
 
 from firnray.checks import finite_float
 from firnray.rays.results import KIND_NAMES
-from firnray.rays.solve import find_rays_many
+from firnray.studies.grid import rays_to_antenna
 from firnray.studies.shadow import shadow_boundary
 
 
@@ -84,17 +84,11 @@ def dr_delays(profile, antenna_z, distance, source_z, workers=None):
     """
     antenna_z = finite_float("antenna_z", antenna_z)
     x, z = _grid_axes(distance, source_z)
-    xx, zz = np.meshgrid(x, z)
-    src = np.column_stack([np.zeros(xx.size), zz.reshape(-1)])
-    rcv = np.column_stack([xx.reshape(-1), np.full(xx.size, antenna_z)])
-    src[(rcv[:, 0] == 0.0) & (src[:, 1] == antenna_z), 1] = np.nan  # the antenna itself
-    return DelayGrid(x, z, antenna_z, find_rays_many(profile, src, rcv, workers=workers))
+    return DelayGrid(x, z, antenna_z, rays_to_antenna(profile, antenna_z, x, z, workers))
 
 
 def _delay_at(profile, antenna_z, source_z, x):
-    rs = find_rays_many(profile, np.column_stack([np.zeros_like(x), np.full_like(x, source_z)]),
-                        np.column_stack([x, np.full_like(x, antenna_z)]))
-    t = rs.travel_time
+    t = rays_to_antenna(profile, antenna_z, x, [source_z]).travel_time
     return t[:, 1] - t[:, 0] if t.shape[1] > 1 else np.full(len(x), np.nan)
 
 

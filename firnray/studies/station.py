@@ -21,10 +21,10 @@ from importlib import resources
 import numpy as np
 import yaml
 
-from firnray.errors import ProfileFileError
+from firnray.errors import InputFileError
 
 
-class StationFileError(ProfileFileError):
+class StationFileError(InputFileError):
     """A station file could not be read: the message names the file and the key."""
 
 

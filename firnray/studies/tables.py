@@ -28,6 +28,7 @@ from firnray.medium.profiles import ExponentialProfile
 from firnray.rays import exponential_kernels as ek
 from firnray.rays.solve import check_profile, find_rays_many
 from firnray.studies.execution import chunk_slices, run_tasks
+from firnray.studies.grid import rays_to_antenna
 from firnray.version import __version__
 
 FORMAT = "firnray-lookup-table"
@@ -90,19 +91,15 @@ def compute_chunk(task):
     prof = ExponentialProfile(n_deep, n_surface, scale, n_air=n_air, z_min=z_min)
     x = np.asarray(task["distance"], float)
     z = np.asarray(task["source_z"], float)
-    xx, zz = np.meshgrid(x, z)
-    src = np.column_stack([np.zeros(xx.size), zz.reshape(-1)])
-    rcv = np.column_stack([xx.reshape(-1), np.full(xx.size, task["antenna_z"])])
-    same = (xx.reshape(-1) == 0.0) & (zz.reshape(-1) == task["antenna_z"])
-    src[same, 1] = np.nan  # the antenna itself: no ray
-    rs = find_rays_many(prof, src, rcv, workers=task.get("workers"))
+    rs = rays_to_antenna(prof, task["antenna_z"], x, z, task.get("workers"))
+    n = len(x) * len(z)
     out = {}
     for q in FLOAT_QUANTITIES:
-        arr = np.full((xx.size, MAX_RAYS), np.nan)
+        arr = np.full((n, MAX_RAYS), np.nan)
         vals = getattr(rs, q)
         arr[:, :vals.shape[1]] = vals
         out[q] = arr.reshape(len(z), len(x), MAX_RAYS)
-    kinds = np.full((xx.size, MAX_RAYS), -1, np.int8)
+    kinds = np.full((n, MAX_RAYS), -1, np.int8)
     kinds[:, :rs.kind.shape[1]] = rs.kind
     out["kind"] = kinds.reshape(len(z), len(x), MAX_RAYS)
     out["count"] = rs.count.astype(np.int16).reshape(len(z), len(x))
@@ -254,11 +251,12 @@ def build_table(profile, antenna_z, distance, source_z, folder, chunk_shape=(64,
             json.dump(record, fh, indent=1, sort_keys=True)
         os.replace(tmp, manifest)
     pending = []
-    for (iz, ix, sz, sx), task in _chunk_tasks(record):
+    all_tasks = _chunk_tasks(record)
+    for (iz, ix, sz, sx), task in all_tasks:
         if not os.path.exists(os.path.join(chunks, _chunk_name(iz, ix))):
             task["workers"] = None if executor is None else 1
             pending.append(((iz, ix), task))
-    total = len(_chunk_tasks(record))
+    total = len(all_tasks)
     bar = None
     if progress:
         from tqdm import tqdm

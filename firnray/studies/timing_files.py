@@ -17,10 +17,10 @@ the column.
 import csv
 import math
 
-from firnray.errors import ProfileFileError
+from firnray.errors import InputFileError
 
 
-class TimingFileError(ProfileFileError):
+class TimingFileError(InputFileError):
     """A timing CSV could not be read: the message names the file, line and column."""
 
 
