@@ -7,6 +7,7 @@ positive in the air, where every profile gives ``n_air``.
 import numpy as np
 
 from firnray.checks import finite_float, positive_float
+from firnray.medium.panels import EXPONENTIAL, UNIFORM, PanelStack
 
 #: Default lowest height at which a profile is valid [m]: below the thickest
 #: polar ice (a fact of common practice: ice sheets are at most ~4.9 km thick).
@@ -121,6 +122,16 @@ class ExponentialProfile(IndexProfile):
     def index(self, z):
         """Refractive index at height ``z`` [m] (scalar or array) [1]."""
         return exponential_index(z, self.n_deep, self.n_surface, self.scale_depth, self.n_air)
+
+    @property
+    def panels(self):
+        """The profile as one exponential panel (or a uniform one), see ``medium.panels``."""
+        if getattr(self, "_panels", None) is None:
+            a, d = self.n_deep, self.n_deep - self.n_surface
+            kind, coef = (EXPONENTIAL, (a, self.scale_depth, self.n_surface, d)) if d > 0 else (
+                UNIFORM, (a, 0.0, 0.0, 0.0))
+            self._panels = PanelStack([0.0], [-np.inf], [kind], [coef])
+        return self._panels
 
     @property
     def parameters(self):

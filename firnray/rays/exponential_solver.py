@@ -32,6 +32,7 @@ import numba
 import numpy as np
 
 from firnray.constants import SPEED_OF_LIGHT
+from firnray.rays.bracketing import safeguarded_step
 from firnray.rays.exponential_kernels import (
     KERNEL_OPTIONS,
     family_d,
@@ -225,14 +226,8 @@ def polish_root(mode, x_target, t_a, f_a, t_b, f_b, t_start, h, n_air, pair):
             lo = t
         else:
             hi = t
-        step_ok = False
-        if dx != 0.0 and math.isfinite(dx):
-            t_new = t - f / dx
-            if (t_new - lo) * (t_new - hi) < 0.0 and abs(f / dx) < 0.5 * width_old:
-                step_ok = True
+        t_new = safeguarded_step(t, f, dx, lo, hi, width_old)
         width_old = width
-        if not step_ok:
-            t_new = 0.5 * (lo + hi)
         width = abs(t_new - t)
         if t_new == t or abs(hi - lo) <= 4e-16 * max(abs(lo), abs(hi)) + 1e-300:
             return t_new, True

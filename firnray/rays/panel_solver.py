@@ -1,0 +1,531 @@
+"""Every ray between two points in a general monotone profile (panel stack).
+
+The families and their parameters are those of ``exponential_solver``: for
+two points in the ice, with z_hi the shallower, the elevation psi of the ray
+at z_hi gives b = n_hi cos(psi), p = n_hi sin(psi), and
+
+* the direct family X_d(psi) falls monotonically from X_h = X_d(0) (infinite
+  when z_hi lies in a uniform panel) to 0 at psi = pi/2;
+* the up-going family X_u(psi) = X_d(psi) + 2 X(z_hi -> top) starts at X_h,
+  is refracted for psi < psi_s (b > n_surface) and reflected beyond, where it
+  falls monotonically to 0 (every piece is a direct piece, whose X grows with b).
+
+Unlike the single exponential, a general profile (a kink in dn/dz at a break,
+a measured table) need not give the refracted branch a single maximum.  It is
+therefore scanned at ``SCAN`` values of psi crowding towards psi_s; every
+sampled local maximum below the target distance (and minimum above it) is
+refined by Brent's golden-section/parabolic search, and a sign change of
+X - x_target between neighbouring points of the refined scan is a root.  Each
+root is polished by secant steps inside its bracket, with the safeguard of
+``bracketing.safeguarded_step``.  The spreading derivative dX/dpsi comes from
+a central difference at the root.
+
+One point in the air gives the transmitted ray (parameter: the zenith phi in
+the air); two points in the air are solved as straight lines.
+"""
+
+import math
+
+import numba
+import numpy as np
+
+from firnray.constants import SPEED_OF_LIGHT
+from firnray.rays import exponential_solver as es
+from firnray.rays.bracketing import safeguarded_step
+from firnray.rays.exponential_kernels import KERNEL_OPTIONS, kernel
+from firnray.rays.panel_kernels import (UNIFORM, find_panel, index_at, panel_level, segment,
+                                        slowness, turning_point)
+
+HALF_PI = 0.5 * math.pi
+#: Number of scan intervals of the refracted branch of the up-going family.
+SCAN = 10
+#: Most up-going rays kept per pair (the direct ray comes on top).
+MAX_UP = 5
+#: Slots per pair: the direct ray and MAX_UP up-going rays.
+MAX_RAYS = 1 + MAX_UP
+MAX_ITER = 200
+GOLDEN = 0.3819660112501051
+
+# families (mode codes of ``family``)
+DIRECT_FAMILY, UP_FAMILY, AIR_FAMILY, LAYER_FAMILY = 0, 1, 2, 3
+
+
+@kernel
+def family(mode, t, prof, geo):
+    """X [m], L [m], c T [m], top height [m] and kind code of family ``mode`` at t [rad].
+
+    ``geo`` = (n_hi, z_lo, z_hi, h, n_air, n_s, z_layer): index at z_hi, the
+    two heights, for the transmitted family the height h of the air point
+    and the indices of air and surface, for the layer family the reflector.
+    """
+    n_hi, z_lo, z_hi, h, n_air, n_s, z_layer = geo
+    if mode == AIR_FAMILY:
+        b = n_air * math.sin(t)
+        p = math.sqrt(max((n_s - b) * (n_s + b), 0.0))
+        x, ln, ct = segment(prof, b, n_s, p, z_lo, 0.0, False)
+        air = h / math.cos(t)
+        return x + h * math.tan(t), ln + air, ct + n_air * air, 0.0, es.TRANSMITTED
+    b = n_hi * math.cos(t)
+    p = n_hi * math.sin(t)
+    if mode == LAYER_FAMILY:
+        x1, l1, t1 = segment(prof, b, n_hi, p, z_layer, z_hi, False)
+        x2, l2, t2 = segment(prof, b, n_hi, p, z_layer, z_lo, False)
+        return x1 + x2, l1 + l2, t1 + t2, z_layer, es.LAYER_REFLECTED
+    x1, l1, t1 = segment(prof, b, n_hi, p, z_lo, z_hi, False)
+    if mode == DIRECT_FAMILY:
+        return x1, l1, t1, z_hi, es.DIRECT
+    k_t, z_t = turning_point(prof, b)
+    if k_t < 0:
+        x2, l2, t2 = segment(prof, b, n_hi, p, z_hi, 0.0, False)
+        return x1 + 2.0 * x2, l1 + 2.0 * l2, t1 + 2.0 * t2, 0.0, es.REFLECTED
+    z_t = max(z_t, z_hi)
+    x2, l2, t2 = segment(prof, b, n_hi, p, z_hi, z_t, True)
+    return x1 + 2.0 * x2, l1 + 2.0 * l2, t1 + 2.0 * t2, z_t, es.REFRACTED
+
+
+@kernel
+def family_x(mode, t, prof, geo):
+    """Horizontal distance X(t) [m] of family ``mode``."""
+    return family(mode, t, prof, geo)[0]
+
+
+@kernel
+def find_root(mode, x_target, t_a, f_a, t_b, f_b, prof, geo):
+    """Root t [rad] of X(t) = x_target in [t_a, t_b] (f = X - x_target of opposite
+    signs at the ends, possibly infinite) by safeguarded secant steps.
+
+    Returns (t, converged) as ``exponential_solver.polish_root``.
+    """
+    if f_a == 0.0:
+        return t_a, True
+    if f_b == 0.0:
+        return t_b, True
+    if f_a < 0.0:
+        lo, hi = t_a, t_b
+    else:
+        lo, hi = t_b, t_a
+    tol = 1e-12 * (1.0 + x_target)
+    if math.isfinite(f_a) and math.isfinite(f_b):
+        t = t_a - f_a * (t_b - t_a) / (f_b - f_a)
+        t_prev, f_prev = (t_a, f_a) if abs(f_a) < abs(f_b) else (t_b, f_b)
+    else:
+        t = 0.5 * (t_a + t_b)
+        t_prev, f_prev = (t_a, f_a) if math.isfinite(f_a) else (t_b, f_b)
+    if not (t - lo) * (t - hi) < 0.0:
+        t = 0.5 * (t_a + t_b)
+    width_old = abs(t_b - t_a)
+    width = width_old
+    f = family_x(mode, t, prof, geo) - x_target
+    for _ in range(MAX_ITER):
+        if abs(f) <= tol:
+            return t, True
+        if f < 0.0:
+            lo = t
+        else:
+            hi = t
+        slope = (f - f_prev) / (t - t_prev) if t != t_prev else math.nan
+        t_new = safeguarded_step(t, f, slope, lo, hi, width_old)
+        width_old = width
+        width = abs(t_new - t)
+        if t_new == t or abs(hi - lo) <= 4e-16 * max(abs(lo), abs(hi)) + 1e-300:
+            return t_new, True
+        t_prev, f_prev = t, f
+        t = t_new
+        f = family_x(mode, t, prof, geo) - x_target
+    return t, False
+
+
+@kernel
+def extremum(sign, t_a, t_b, t_best, f_best, stop_at, prof, geo, x_target):
+    """Brent's golden-section/parabolic search for the extremum of the up-going
+    family in [t_a, t_b]: the maximum of X for sign = 1, the minimum for -1.
+
+    Starts from the interior sample (t_best, f_best) (f = X - x_target) and
+    stops early once sign * f > stop_at (the extremum is known to cross the
+    target).  Returns (t, f) at the extremum found.
+    """
+    a, bb = t_a, t_b
+    x = w = v = t_best
+    fx = fw = fv = -sign * f_best          # minimise g = -sign * f
+    d = 0.0
+    e = 0.0
+    for _ in range(MAX_ITER):
+        m = 0.5 * (a + bb)
+        tol1 = 1e-10 * abs(x) + 1e-13
+        tol2 = 2.0 * tol1
+        if abs(x - m) <= tol2 - 0.5 * (bb - a) or -fx > stop_at:
+            break
+        parabolic = False
+        if abs(e) > tol1:
+            r = (x - w) * (fx - fv)
+            q = (x - v) * (fx - fw)
+            pp = (x - v) * q - (x - w) * r
+            q = 2.0 * (q - r)
+            if q > 0.0:
+                pp = -pp
+            q = abs(q)
+            if abs(pp) < abs(0.5 * q * e) and pp > q * (a - x) and pp < q * (bb - x):
+                e = d
+                d = pp / q
+                u = x + d
+                if u - a < tol2 or bb - u < tol2:
+                    d = tol1 if x < m else -tol1
+                parabolic = True
+        if not parabolic:
+            e = (bb - x) if x < m else (a - x)
+            d = GOLDEN * e
+        u = x + d if abs(d) >= tol1 else x + (tol1 if d > 0 else -tol1)
+        fu = -sign * (family_x(UP_FAMILY, u, prof, geo) - x_target)
+        if fu <= fx:
+            if u < x:
+                bb = x
+            else:
+                a = x
+            v, fv = w, fw
+            w, fw = x, fx
+            x, fx = u, fu
+        else:
+            if u < x:
+                a = u
+            else:
+                bb = u
+            if fu <= fw or w == x:
+                v, fv = w, fw
+                w, fw = u, fu
+            elif fu <= fv or v == x or v == w:
+                v, fv = u, fu
+    return x, -sign * fx
+
+
+@kernel
+def slope_at(mode, t, t_min, t_max, prof, geo):
+    """dX/dt [m/rad] at t by a central difference (one-sided at the ends)."""
+    hstep = 1e-6 * max(abs(t), 1e-3)
+    t1 = max(t - hstep, t_min)
+    t2 = min(t + hstep, t_max)
+    if t2 <= t1:
+        return math.nan
+    return (family_x(mode, t2, prof, geo) - family_x(mode, t1, prof, geo)) / (t2 - t1)
+
+
+@kernel
+def store_general(out, kinds, conv, i, k, mode, t, ok, swapped, t_max, prof, geo):
+    """Evaluate the ray of family ``mode`` at t and write it to row i, slot k."""
+    n_hi, z_lo, z_hi, h, n_air, n_s, z_layer = geo
+    x, length, c_time, z_top, code = family(mode, t, prof, geo)
+    dx = slope_at(mode, t, 0.0, t_max, prof, geo)
+    n_lo = index_at(prof, z_lo)
+    if mode == AIR_FAMILY:
+        b = n_air * math.sin(t)
+        p = math.sqrt(max((n_s - b) * (n_s + b), 0.0))
+        w_lo = slowness(n_lo, n_s, p)
+        theta_ice = math.atan2(b, w_lo)
+        if swapped:      # source in the air
+            launch, arrival = math.pi - t, math.pi - theta_ice
+            r2 = x * abs(dx) * (w_lo / n_lo) / max(math.sin(t), 1e-300)
+        else:
+            launch, arrival = theta_ice, t
+            r2 = x * abs(dx) * w_lo * n_lo / (n_air * max(b, 1e-300))
+        spread = math.sqrt(r2) if x > 0.0 else length
+        es.store_ray(out, kinds, conv, i, k, code, b, c_time, length, launch, arrival,
+                     math.nan, p, ok, spread)
+        return
+    b = n_hi * math.cos(t)
+    p = n_hi * math.sin(t)
+    w_lo = slowness(n_lo, n_hi, p)
+    theta_lo = math.atan2(b, w_lo)
+    if mode == LAYER_FAMILY:
+        theta_hi = HALF_PI - t
+        if swapped:
+            launch, arrival = math.pi - theta_hi, theta_lo
+        else:
+            launch, arrival = math.pi - theta_lo, theta_hi
+    else:
+        theta_hi = HALF_PI + t if mode == UP_FAMILY else HALF_PI - t
+        if swapped:
+            launch, arrival = math.pi - theta_hi, math.pi - theta_lo
+        else:
+            launch, arrival = theta_lo, theta_hi
+    spread = es.equivalent_distance(x, dx, w_lo, n_lo, n_hi, b, swapped, length)
+    turning = z_top if code == es.REFRACTED else math.nan
+    es.store_ray(out, kinds, conv, i, k, code, b, c_time, length, launch, arrival,
+                 turning, p, ok, spread)
+
+
+@kernel
+def horizontal_straight(out, kinds, conv, i, k, n, x_target):
+    """The horizontal straight ray between two points at one height in uniform ice."""
+    es.store_ray(out, kinds, conv, i, k, es.DIRECT, n, n * x_target, x_target, HALF_PI,
+                 HALF_PI, math.nan, 0.0, True, x_target)
+
+
+@kernel
+def scan_point(j, psi_s):
+    """Scan point j of the refracted branch [rad]: Chebyshev spacing on [0, psi_s],
+    dense at both ends (the largest reach lies near 0 for deep pairs and near
+    the grazing ray psi_s for shallow ones)."""
+    return 0.5 * psi_s * (1.0 - math.cos(math.pi * j / SCAN))
+
+
+@kernel
+def up_family_scan(prof, geo, x_target, x_h, psi_s, ts, fs):
+    """Scan of the refracted branch, refined at extrema; fills ts, fs (length >=
+    2 SCAN + 2) and returns the number of points, in increasing t.
+
+    A sampled maximum below the target (the last sample included: the
+    largest reach may lie just before the grazing ray) and a sampled minimum
+    above it are refined; the refined extremum joins the scan, so that a
+    crossing hidden between two samples shows as a sign change.
+    """
+    ts[0] = 0.0
+    fs[0] = x_h - x_target
+    for j in range(1, SCAN + 1):
+        ts[j] = scan_point(j, psi_s)
+        fs[j] = family_x(UP_FAMILY, ts[j], prof, geo) - x_target
+    m = SCAN + 1
+    extra_t = np.empty(SCAN + 1)
+    extra_f = np.empty(SCAN + 1)
+    n_extra = 0
+    for j in range(SCAN + 1):
+        f1 = fs[j]
+        f0 = fs[j - 1] if j > 0 else -math.inf
+        f2 = fs[j + 1] if j < SCAN else -math.inf
+        if f1 >= f0 and f1 >= f2 and f1 < 0.0:          # a maximum below the target
+            t_a = ts[j - 1] if j > 0 else ts[0]
+            t_b = ts[j + 1] if j < SCAN else ts[SCAN]
+            if j == 0 or j == SCAN:                     # the peak may lie inside the end interval
+                t0 = 0.5 * (ts[0] + ts[1]) if j == 0 else 0.5 * (ts[SCAN - 1] + ts[SCAN])
+                f_start = family_x(UP_FAMILY, t0, prof, geo) - x_target
+            else:
+                t0, f_start = ts[j], f1
+            t_e, f_e = extremum(1, t_a, t_b, t0, f_start, 0.0, prof, geo, x_target)
+        elif 0 < j < SCAN and f1 <= f0 and f1 <= f2 and f1 > 0.0 and math.isfinite(f0):
+            t_e, f_e = extremum(-1, ts[j - 1], ts[j + 1], ts[j], f1, 0.0, prof, geo, x_target)
+        else:
+            continue
+        if t_e != ts[j]:
+            extra_t[n_extra] = t_e
+            extra_f[n_extra] = f_e
+            n_extra += 1
+    for j in range(n_extra):
+        m = insert_point(ts, fs, m, extra_t[j], extra_f[j])
+    return m
+
+
+@kernel
+def insert_point(ts, fs, m, t, f):
+    """Insert (t, f) into the sorted scan of m points; returns m + 1."""
+    if m >= ts.shape[0]:
+        return m
+    j = m
+    while j > 0 and ts[j - 1] > t:
+        ts[j] = ts[j - 1]
+        fs[j] = fs[j - 1]
+        j -= 1
+    ts[j] = t
+    fs[j] = f
+    return m + 1
+
+
+@kernel
+def solve_ice(out, kinds, conv, i, prof, x_target, z_src, z_rcv):
+    """Every ray between two points in the ice; returns their number."""
+    swapped = z_src > z_rcv
+    z_lo, z_hi = (z_rcv, z_src) if swapped else (z_src, z_rcv)
+    k_hi = find_panel(prof[0], z_hi)
+    n_hi = panel_level(prof, k_hi, z_hi)[0]
+    n_s = prof[4][0]
+    geo = (n_hi, z_lo, z_hi, 0.0, 1.0, n_s, 0.0)
+    uniform_hi = prof[2][k_hi] == UNIFORM and z_hi < prof[0][k_hi]
+    k = 0
+    if z_lo == z_hi:
+        x_h = math.inf if uniform_hi else 0.0
+        if uniform_hi:
+            horizontal_straight(out, kinds, conv, i, k, n_hi, x_target)
+            k += 1
+    else:
+        x_h = family_x(DIRECT_FAMILY, 0.0, prof, geo)
+        if not math.isfinite(x_h):
+            x_h = math.inf
+        if x_target < x_h:
+            t, ok = find_root(DIRECT_FAMILY, x_target, 0.0, x_h - x_target, HALF_PI, -x_target,
+                              prof, geo)
+            store_general(out, kinds, conv, i, k, DIRECT_FAMILY, t, ok, swapped, HALF_PI, prof,
+                          geo)
+            k += 1
+    if z_hi >= 0.0:
+        return k
+    psi_s = math.atan2(math.sqrt(max((n_hi - n_s) * (n_hi + n_s), 0.0)), n_s)
+    ts = np.empty(2 * SCAN + 4)
+    fs = np.empty(2 * SCAN + 4)
+    m = 1
+    ts[0] = 0.0
+    fs[0] = x_h - x_target
+    if psi_s > 0.0:
+        m = up_family_scan(prof, geo, x_target, x_h, psi_s, ts, fs)
+    else:
+        fs[0] = family_x(UP_FAMILY, 0.0, prof, geo) - x_target
+    n_up = 0
+    for j in range(1, m):
+        if n_up >= MAX_UP:
+            break
+        fa, fb = fs[j - 1], fs[j]
+        if fb == 0.0 or (fa > 0.0 and fb < 0.0) or (fa < 0.0 and fb > 0.0):
+            t, ok = find_root(UP_FAMILY, x_target, ts[j - 1], fa, ts[j], fb, prof, geo)
+            store_general(out, kinds, conv, i, k, UP_FAMILY, t, ok, swapped, HALF_PI, prof, geo)
+            k += 1
+            n_up += 1
+    f_s = fs[m - 1]
+    if f_s > 0.0 and n_up < MAX_UP:        # reflected branch: monotone down to -x at pi/2
+        t, ok = find_root(UP_FAMILY, x_target, ts[m - 1], f_s, HALF_PI, -x_target, prof, geo)
+        store_general(out, kinds, conv, i, k, UP_FAMILY, t, ok, swapped, HALF_PI, prof, geo)
+        k += 1
+    return k
+
+
+@kernel
+def solve_air_ice(out, kinds, conv, i, prof, n_air, x_target, z_src, z_rcv):
+    """The transmitted ray between a point in the air and one in the ice."""
+    source_in_air = z_src > 0.0
+    h, z_ice = (z_src, z_rcv) if source_in_air else (z_rcv, z_src)
+    geo = (prof[4][0], z_ice, 0.0, h, n_air, prof[4][0], 0.0)
+    phi_top = math.atan2(x_target, h)
+    f_top = family_x(AIR_FAMILY, phi_top, prof, geo) - x_target
+    t, ok = find_root(AIR_FAMILY, x_target, 0.0, -x_target, phi_top, f_top, prof, geo)
+    store_general(out, kinds, conv, i, 0, AIR_FAMILY, t, ok, source_in_air, phi_top, prof, geo)
+    return 1
+
+
+@kernel
+def solve_layer(out, kinds, conv, i, k, prof, x_target, z_src, z_rcv, z_layer, layer_index):
+    """The ray bouncing once off a reflector at z_layer below both ice points."""
+    swapped = z_src > z_rcv
+    z_lo, z_hi = (z_rcv, z_src) if swapped else (z_src, z_rcv)
+    if not z_layer < z_lo:
+        return 0
+    n_hi = index_at(prof, z_hi)
+    geo = (n_hi, z_lo, z_hi, 0.0, 1.0, prof[4][0], z_layer)
+    x_h = family_x(LAYER_FAMILY, 0.0, prof, geo)
+    if not math.isfinite(x_h):
+        x_h = math.inf
+    if not x_target < x_h:
+        return 0
+    t, ok = find_root(LAYER_FAMILY, x_target, 0.0, x_h - x_target, HALF_PI, -x_target, prof, geo)
+    store_general(out, kinds, conv, i, k, LAYER_FAMILY, t, ok, swapped, HALF_PI, prof, geo)
+    out[i, k, es.COL_LAYER] = layer_index
+    return 1
+
+
+@kernel
+def solve_row(i, prof, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, count):
+    """Solve pair i (and its bounces off ``layers``) and order its rays by travel time."""
+    n_slots = out.shape[1]
+    for k in range(n_slots):
+        for c in range(es.N_COLS):
+            out[i, k, c] = math.nan
+        kinds[i, k] = -1
+        conv[i, k] = False
+    x, zs, zr = x_target[i], z_src[i], z_rcv[i]
+    if not (math.isfinite(x) and math.isfinite(zs) and math.isfinite(zr)):
+        count[i] = 0
+        return
+    if zs > 0.0 and zr > 0.0:
+        n = es.solve_uniform_ice(out, kinds, conv, i, n_air, x, -zs, -zr, True)
+    elif zs > 0.0 or zr > 0.0:
+        n = solve_air_ice(out, kinds, conv, i, prof, n_air, x, zs, zr)
+    else:
+        n = solve_ice(out, kinds, conv, i, prof, x, zs, zr)
+        for j in range(layers.shape[0]):
+            n += solve_layer(out, kinds, conv, i, n, prof, x, zs, zr, layers[j], float(j))
+    count[i] = n
+    for m in range(1, n):
+        j = m
+        while j > 0 and out[i, j, es.COL_TIME] < out[i, j - 1, es.COL_TIME]:
+            for c in range(es.N_COLS):
+                tmp = out[i, j, c]
+                out[i, j, c] = out[i, j - 1, c]
+                out[i, j - 1, c] = tmp
+            kk = kinds[i, j]
+            kinds[i, j] = kinds[i, j - 1]
+            kinds[i, j - 1] = kk
+            cc = conv[i, j]
+            conv[i, j] = conv[i, j - 1]
+            conv[i, j - 1] = cc
+            j -= 1
+
+
+@numba.njit(parallel=True, **KERNEL_OPTIONS)
+def solve_pairs(prof, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, count):
+    """Solve every pair in parallel (arguments as ``exponential_solver.solve_pairs``,
+    with the panel arrays ``prof`` in place of the exponential parameters)."""
+    for i in numba.prange(x_target.shape[0]):
+        solve_row(i, prof, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, count)
+
+
+@kernel
+def solve_pairs_serial(prof, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, count):
+    """:func:`solve_pairs` on the calling thread."""
+    for i in range(x_target.shape[0]):
+        solve_row(i, prof, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, count)
+
+
+@kernel
+def max_reach(prof, z_lo, z_hi):
+    """Largest horizontal distance [m] at which any ray joins heights z_lo <= z_hi < 0."""
+    n_hi = index_at(prof, z_hi)
+    n_s = prof[4][0]
+    geo = (n_hi, z_lo, z_hi, 0.0, 1.0, n_s, 0.0)
+    if z_lo == z_hi:
+        k_hi = find_panel(prof[0], z_hi)
+        if prof[2][k_hi] == UNIFORM and z_hi < prof[0][k_hi]:
+            return math.inf
+        x_h = 0.0
+    else:
+        x_h = family_x(DIRECT_FAMILY, 0.0, prof, geo)
+    if not math.isfinite(x_h):
+        return math.inf
+    psi_s = math.atan2(math.sqrt(max((n_hi - n_s) * (n_hi + n_s), 0.0)), n_s)
+    best = x_h
+    if psi_s <= 0.0:
+        return best
+    ts = np.empty(SCAN + 1)
+    xs = np.empty(SCAN + 1)
+    ts[0] = 0.0
+    xs[0] = x_h
+    for j in range(1, SCAN + 1):
+        ts[j] = scan_point(j, psi_s)
+        xs[j] = family_x(UP_FAMILY, ts[j], prof, geo)
+    for j in range(SCAN + 1):
+        left = xs[j - 1] if j > 0 else -math.inf
+        right = xs[j + 1] if j < SCAN else -math.inf
+        if xs[j] >= left and xs[j] >= right:
+            t_a = ts[max(j - 1, 0)]
+            t_b = ts[min(j + 1, SCAN)]
+            if j == 0 or j == SCAN:
+                t0 = 0.5 * (ts[0] + ts[1]) if j == 0 else 0.5 * (ts[SCAN - 1] + ts[SCAN])
+                f0 = family_x(UP_FAMILY, t0, prof, geo)
+            else:
+                t0, f0 = ts[j], xs[j]
+            t_e, f_e = extremum(1, t_a, t_b, t0, f0, math.inf, prof, geo, 0.0)
+            best = max(best, f_e, xs[j])
+    return best
+
+
+@numba.njit(parallel=True, **KERNEL_OPTIONS)
+def max_reach_many(prof, antenna_z, source_z, out):
+    """:func:`max_reach` for an antenna height and many source heights (NaN -> NaN)."""
+    for i in numba.prange(source_z.shape[0]):
+        z = source_z[i]
+        if not math.isfinite(z):
+            out[i] = math.nan
+        elif z > 0.0 or antenna_z > 0.0:
+            out[i] = math.inf
+        else:
+            out[i] = max_reach(prof, min(z, antenna_z), max(z, antenna_z))
+
+
+def allocate(n_pairs, n_layers=0):
+    """Output arrays for :func:`solve_pairs` (see ``exponential_solver.allocate``)."""
+    k = MAX_RAYS + n_layers
+    return (np.empty((n_pairs, k, es.N_COLS)), np.empty((n_pairs, k), dtype=np.int8),
+            np.empty((n_pairs, k), dtype=np.bool_), np.empty(n_pairs, dtype=np.int64))
