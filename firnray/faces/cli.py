@@ -9,6 +9,7 @@
     firnray profile-fit --station S --delays CSV [--free n_surface,scale_depth]
     firnray budget [--profile ...] --source X,Z --receiver X,Z --freq 100,200,400
     firnray profiles
+    firnray demo [--out DIR]
 
 Bad input exits with code 2 and a one-line message on stderr.
 """
@@ -432,6 +433,15 @@ def _cmd_profiles(args):
     return 0
 
 
+def _cmd_demo(args):
+    from firnray.faces import demo
+    try:
+        demo.run(args.out)
+    except OSError as err:
+        raise UsageError(f"--out {args.out!r}: {err.strerror or err}") from None
+    return 0
+
+
 def _profile_arg(p):
     p.add_argument("--profile", default=firnray.medium.files.DEFAULT_PROFILE,
                    help="bundled profile name or YAML file (default: %(default)s)")
@@ -511,6 +521,12 @@ def build_parser():
     p.set_defaults(func=_cmd_budget)
     p = sub.add_parser("profiles", help="list the bundled profiles")
     p.set_defaults(func=_cmd_profiles)
+    p = sub.add_parser("demo", help="tour of the bundled invented site and station: "
+                                    "tables, figures and summaries")
+    p.add_argument("--out", default="firnray-demo",
+                   help="output folder for the figures, summary.md and summary.json "
+                        "(default: %(default)s)")
+    p.set_defaults(func=_cmd_demo)
     return parser
 
 
