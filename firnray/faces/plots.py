@@ -1,4 +1,5 @@
-"""Figures: ray paths with the profile beside them, shadow-zone maps, D/R delay contours.
+"""Figures: ray paths with the profile beside them, shadow-zone maps, D/R delay contours,
+path loss against frequency, vertex residuals, pulls and timing residuals.
 
 matplotlib is imported inside each function only.  Each function takes an
 ``ax=`` (a new figure is made when it is None) and returns the axes it drew
@@ -129,6 +130,50 @@ def plot_delay_contours(grid, ax=None, levels=None):
     ax.set_xlabel("horizontal distance from the antenna [m]")
     ax.set_ylabel("source height z [m]")
     ax.set_title("D/R delay [ns]", fontsize=9)
+    return ax
+
+
+
+def plot_path_loss(budgets, ax=None, labels=None, polarisation="s", linestyle="-"):
+    """Path loss [dB] against frequency [MHz], one line per ray's ``SignalBudget``.
+
+    Parameters
+    ----------
+    budgets : sequence of SignalBudget
+        For example ``[firnray.signal_budget(r, freqs, model) for r in rays]``;
+        each needs at least two frequencies to draw a line.
+    ax : matplotlib Axes, optional
+        Axes to draw on; None makes a new figure.
+    labels : sequence of str, optional
+        Legend label per budget (default: the ray kind).
+    polarisation : {"s", "p"}
+        Which total path loss to draw (``total_db_s`` or ``total_db_p``).
+    linestyle : str
+        Matplotlib line style, so that several attenuation models can share
+        the axes.
+
+    Returns
+    -------
+    Axes
+        Frequency on a logarithmic axis [MHz], path loss [dB] (larger is
+        weaker), lines coloured by ray kind.
+    """
+    if polarisation not in ("s", "p"):
+        raise ValueError(f"polarisation must be 's' or 'p', got {polarisation!r}")
+    budgets = list(budgets)
+    if labels is not None and len(labels) != len(budgets):
+        raise ValueError(f"labels must hold one label per budget ({len(budgets)}), "
+                         f"got {len(labels)}")
+    ax = _axes(ax, figsize=(7, 4.5))
+    for i, bud in enumerate(budgets):
+        label = bud.kind if labels is None else labels[i]
+        ax.plot(bud.frequencies, getattr(bud, f"total_db_{polarisation}"), linestyle,
+                color=KIND_COLOURS.get(bud.kind, "k"), lw=1.5, label=label)
+    ax.set_xscale("log")
+    ax.set_xlabel("frequency [MHz]")
+    ax.set_ylabel(f"path loss, {polarisation} polarisation [dB]")
+    if budgets:
+        ax.legend(loc="best", fontsize=8)
     return ax
 
 
