@@ -21,20 +21,35 @@ summed panel by panel:
   ``z_s = z_b + w_b^2 / (2 n_b |dn/dz|_b)`` where w^2, extrapolated
   linearly, would vanish.
 
-Panel arguments (``prof``) are the tuple ``PanelStack.arrays``:
-(top, bottom, kind, coef, n_top).
+Panel arguments (``prof``) are the tuple of ``panel_blocks.solver_arrays``:
+(top, bottom, kind, coef, n_top) and the block moments of ``panel_blocks``,
+which replace the quadrature of blocks of cubic panels far below the top of
+a piece by a converging series.
 """
 
 import math
 
+import numba
 import numpy as np
 
-from firnray.rays.exponential_kernels import (kernel, segment_d, segment_extras, turning_d,
+from firnray.rays.panel_blocks import BLOCK, COARSE, ORDER, RATIO
+from firnray.rays.exponential_kernels import (KERNEL_OPTIONS, segment_d, segment_extras, turning_d,
                                               turning_extras)
 
 EXPONENTIAL, CUBIC, UNIFORM = 0, 1, 2
 
-_x4, _w4 = np.polynomial.legendre.leggauss(4)
+def lean_kernel(func):
+    """A kernel compiled without numba's reference counting (``_nrt=False``).
+
+    The panel arrays travel as a tuple through several levels of calls; with
+    reference counting every call increments and decrements each array's
+    count (atomic operations shared between threads), which cost more than
+    the integrals themselves.  None of these kernels allocates memory.
+    """
+    return numba.njit(_nrt=False, **KERNEL_OPTIONS)(func)
+
+
+_x4, _w4 = np.polynomial.legendre.leggauss(3)
 _x8, _w8 = np.polynomial.legendre.leggauss(8)
 #: Gauss-Legendre rule for cubic panels away from the top of a piece.
 NODES_BULK, WEIGHTS_BULK = _x4.copy(), _w4.copy()
@@ -42,7 +57,7 @@ NODES_BULK, WEIGHTS_BULK = _x4.copy(), _w4.copy()
 NODES_TOP, WEIGHTS_TOP = _x8.copy(), _w8.copy()
 
 
-@kernel
+@lean_kernel
 def find_panel(top, z):
     """Index k of the panel with top[k] >= z > top[k+1] (0 for z >= 0)."""
     if z >= top[0]:
@@ -58,10 +73,10 @@ def find_panel(top, z):
     return lo
 
 
-@kernel
+@lean_kernel
 def panel_level(prof, k, z):
     """Index n [1] and slope dn/dz [1/m] at height z [m] inside panel k."""
-    top, bottom, kind, coef, n_top = prof
+    top, bottom, kind, coef, n_top = prof[0], prof[1], prof[2], prof[3], prof[4]
     kd = kind[k]
     if kd == EXPONENTIAL:
         e = coef[k, 3] * math.exp((z - top[k]) / coef[k, 1])
@@ -74,17 +89,17 @@ def panel_level(prof, k, z):
     return coef[k, 0], 0.0
 
 
-@kernel
+@lean_kernel
 def index_at(prof, z):
     """Index n(z) [1] at a height z <= 0 [m]."""
     return panel_level(prof, find_panel(prof[0], z), z)[0]
 
 
-@kernel
+@lean_kernel
 def turning_point(prof, b):
     """Panel k and height z_t [m] where n(z_t) = b; k = -1 if b <= n(0) (no turning
     point below the surface)."""
-    top, bottom, kind, coef, n_top = prof
+    top, bottom, kind, coef, n_top = prof[0], prof[1], prof[2], prof[3], prof[4]
     if b <= n_top[0]:
         return -1, 0.0
     lo = 0
@@ -127,19 +142,19 @@ def turning_point(prof, b):
     return k, bottom[k] + t * (top[k] - bottom[k])
 
 
-@kernel
+@lean_kernel
 def slowness(n, n_ref, p):
     """Vertical slowness w = sqrt((n - n_ref)(n + n_ref) + p^2) [1], 0 if negative."""
     w2 = (n - n_ref) * (n + n_ref) + p * p
     return math.sqrt(w2) if w2 > 0.0 else 0.0
 
 
-@kernel
+@lean_kernel
 def exponential_piece(prof, k, b, n_ref, p, z1, z2, to_turning):
     """Closed-form X [m], L [m], c T [m] of the part z1 -> z2 of a ray in exponential
     panel k (``exponential_kernels``, equations 2.4-2.8 of the theory); with
     ``to_turning`` the part ends at the turning point."""
-    top, bottom, kind, coef, n_top = prof
+    top, bottom, kind, coef, n_top = prof[0], prof[1], prof[2], prof[3], prof[4]
     a, s, d = coef[k, 0], coef[k, 1], coef[k, 3]
     q = math.sqrt((a - b) * (a + b))
     e1 = d * math.exp((z1 - top[k]) / s)
@@ -161,11 +176,11 @@ def exponential_piece(prof, k, b, n_ref, p, z1, z2, to_turning):
     return x, s * ln_h + a * dd / q, s * dw + a * s * ln_h + q * dd + b * x
 
 
-@kernel
+@lean_kernel
 def cubic_piece(prof, k, b, n_ref, p, z1, z2, z_s, nodes, weights):
     """X [m], L [m], c T [m] of the part z1 -> z2 of a ray in cubic panel k by
     Gauss-Legendre quadrature, in v = sqrt(z_s - z) when z_s is finite."""
-    top, bottom, kind, coef, n_top = prof
+    top, bottom, kind, coef, n_top = prof[0], prof[1], prof[2], prof[3], prof[4]
     h = top[k] - bottom[k]
     c0, c1, c2, c3 = coef[k, 0], coef[k, 1], coef[k, 2], coef[k, 3]
     sub = math.isfinite(z_s)
@@ -176,28 +191,53 @@ def cubic_piece(prof, k, b, n_ref, p, z1, z2, z_s, nodes, weights):
         v1, v2 = z1, z2
     mid = 0.5 * (v1 + v2)
     half = 0.5 * (v2 - v1)
+    inv_h = 1.0 / h
+    pp = p * p
     x = 0.0
     ln = 0.0
     ct = 0.0
     for j in range(nodes.shape[0]):
         v = mid + half * nodes[j]
-        if sub:
-            z = z_s - v * v
-            jac = 2.0 * v * half * weights[j]
-        else:
-            z = v
-            jac = half * weights[j]
-        t = (z - bottom[k]) / h
+        z = z_s - v * v if sub else v
+        jac = (2.0 * v * half if sub else half) * weights[j]
+        t = (z - bottom[k]) * inv_h
         n = c0 + t * (c1 + t * (c2 + t * c3))
-        w2 = (n - n_ref) * (n + n_ref) + p * p
-        inv = jac / math.sqrt(w2) if w2 > 0.0 else math.inf
-        x += b * inv
+        w2 = max((n - n_ref) * (n + n_ref) + pp, 1e-300)
+        inv = jac / math.sqrt(w2)
+        x += inv
         ln += n * inv
         ct += n * n * inv
+    x *= b
     return x, ln, ct
 
 
-@kernel
+@lean_kernel
+def block_series(n_m, u_max, series, b, n_ref, p):
+    """X [m], L [m], c T [m] over one block by its moment series (``panel_blocks``:
+    n_m, u_max and the series coefficients), and whether the series applies
+    (u_max / A <= RATIO).  Terms stop once (u_max / A)^j < 1e-17."""
+    big_a = (n_m - n_ref) * (n_m + n_ref) + p * p
+    if not big_a > 0.0 or u_max > RATIO * big_a:
+        return 0.0, 0.0, 0.0, False
+    r = 1.0 / big_a
+    rho = u_max * r
+    last = 0
+    bound = rho
+    while bound >= 1e-17 and last < ORDER:
+        bound *= rho
+        last += 1
+    sx = series[0, last]
+    sl = series[1, last]
+    st = series[2, last]
+    for i in range(last - 1, -1, -1):
+        sx = sx * r + series[0, i]
+        sl = sl * r + series[1, i]
+        st = st * r + series[2, i]
+    scale = 1.0 / math.sqrt(big_a)
+    return b * sx * scale, sl * scale, st * scale, True
+
+
+@lean_kernel
 def segment(prof, b, n_ref, p, z_a, z_b, to_turning):
     """X [m], L [m] and c T [m] of the monotone piece of a ray from z_a up to z_b.
 
@@ -219,7 +259,7 @@ def segment(prof, b, n_ref, p, z_a, z_b, to_turning):
     x, length, c_time : float
         Infinite if the ray runs horizontally in a uniform panel.
     """
-    top, bottom, kind, coef, n_top = prof
+    top, bottom, kind, coef, n_top = prof[0], prof[1], prof[2], prof[3], prof[4]
     if not z_b > z_a:
         return 0.0, 0.0, 0.0
     k_top = find_panel(top, z_b)
@@ -239,6 +279,28 @@ def segment(prof, b, n_ref, p, z_a, z_b, to_turning):
     m = top.shape[0]
     k = k_top
     while k < m:
+        if k % BLOCK == 0 and k != k_top:
+            used = False
+            size = COARSE
+            last = k + COARSE - 1
+            if (k % COARSE == 0 and last < m and prof[9][k // COARSE] and top[k] <= z_b
+                    and bottom[last] >= z_a):
+                dx, dl, dt, used = block_series(prof[10][k // COARSE], prof[11][k // COARSE],
+                                                prof[12][k // COARSE], b, n_ref, p)
+            if not used:
+                size = BLOCK
+                last = k + BLOCK - 1
+                if last < m and prof[5][k // BLOCK] and top[k] <= z_b and bottom[last] >= z_a:
+                    dx, dl, dt, used = block_series(prof[6][k // BLOCK], prof[7][k // BLOCK],
+                                                    prof[8][k // BLOCK], b, n_ref, p)
+            if used:
+                x += dx
+                ln += dl
+                ct += dt
+                if bottom[last] <= z_a:
+                    break
+                k += size
+                continue
         z2 = min(z_b, top[k])
         z1 = max(z_a, bottom[k])
         if z2 > z1:

@@ -32,8 +32,8 @@ import numpy as np
 from firnray.constants import SPEED_OF_LIGHT
 from firnray.rays import exponential_solver as es
 from firnray.rays.bracketing import safeguarded_step
-from firnray.rays.exponential_kernels import KERNEL_OPTIONS, kernel
-from firnray.rays.panel_kernels import (UNIFORM, find_panel, index_at, panel_level, segment,
+from firnray.rays.exponential_kernels import KERNEL_OPTIONS
+from firnray.rays.panel_kernels import (UNIFORM, find_panel, index_at, lean_kernel, panel_level, segment,
                                         slowness, turning_point)
 
 HALF_PI = 0.5 * math.pi
@@ -50,7 +50,7 @@ GOLDEN = 0.3819660112501051
 DIRECT_FAMILY, UP_FAMILY, AIR_FAMILY, LAYER_FAMILY = 0, 1, 2, 3
 
 
-@kernel
+@lean_kernel
 def family(mode, t, prof, geo):
     """X [m], L [m], c T [m], top height [m] and kind code of family ``mode`` at t [rad].
 
@@ -83,13 +83,13 @@ def family(mode, t, prof, geo):
     return x1 + 2.0 * x2, l1 + 2.0 * l2, t1 + 2.0 * t2, z_t, es.REFRACTED
 
 
-@kernel
+@lean_kernel
 def family_x(mode, t, prof, geo):
     """Horizontal distance X(t) [m] of family ``mode``."""
     return family(mode, t, prof, geo)[0]
 
 
-@kernel
+@lean_kernel
 def find_root(mode, x_target, t_a, f_a, t_b, f_b, prof, geo):
     """Root t [rad] of X(t) = x_target in [t_a, t_b] (f = X - x_target of opposite
     signs at the ends, possibly infinite) by safeguarded secant steps.
@@ -135,7 +135,7 @@ def find_root(mode, x_target, t_a, f_a, t_b, f_b, prof, geo):
     return t, False
 
 
-@kernel
+@lean_kernel
 def extremum(sign, t_a, t_b, t_best, f_best, stop_at, prof, geo, x_target):
     """Brent's golden-section/parabolic search for the extremum of the up-going
     family in [t_a, t_b]: the maximum of X for sign = 1, the minimum for -1.
@@ -197,7 +197,7 @@ def extremum(sign, t_a, t_b, t_best, f_best, stop_at, prof, geo, x_target):
     return x, -sign * fx
 
 
-@kernel
+@lean_kernel
 def slope_at(mode, t, t_min, t_max, prof, geo):
     """dX/dt [m/rad] at t by a central difference (one-sided at the ends)."""
     hstep = 1e-6 * max(abs(t), 1e-3)
@@ -208,7 +208,7 @@ def slope_at(mode, t, t_min, t_max, prof, geo):
     return (family_x(mode, t2, prof, geo) - family_x(mode, t1, prof, geo)) / (t2 - t1)
 
 
-@kernel
+@lean_kernel
 def store_general(out, kinds, conv, i, k, mode, t, ok, swapped, t_max, prof, geo):
     """Evaluate the ray of family ``mode`` at t and write it to row i, slot k."""
     n_hi, z_lo, z_hi, h, n_air, n_s, z_layer = geo
@@ -252,14 +252,14 @@ def store_general(out, kinds, conv, i, k, mode, t, ok, swapped, t_max, prof, geo
                  turning, p, ok, spread)
 
 
-@kernel
+@lean_kernel
 def horizontal_straight(out, kinds, conv, i, k, n, x_target):
     """The horizontal straight ray between two points at one height in uniform ice."""
     es.store_ray(out, kinds, conv, i, k, es.DIRECT, n, n * x_target, x_target, HALF_PI,
                  HALF_PI, math.nan, 0.0, True, x_target)
 
 
-@kernel
+@lean_kernel
 def scan_point(j, psi_s):
     """Scan point j of the refracted branch [rad]: Chebyshev spacing on [0, psi_s],
     dense at both ends (the largest reach lies near 0 for deep pairs and near
@@ -267,8 +267,8 @@ def scan_point(j, psi_s):
     return 0.5 * psi_s * (1.0 - math.cos(math.pi * j / SCAN))
 
 
-@kernel
-def up_family_scan(prof, geo, x_target, x_h, psi_s, ts, fs):
+@lean_kernel
+def up_family_scan(prof, geo, x_target, x_h, psi_s, ts, fs, extra_t, extra_f):
     """Scan of the refracted branch, refined at extrema; fills ts, fs (length >=
     2 SCAN + 2) and returns the number of points, in increasing t.
 
@@ -283,8 +283,6 @@ def up_family_scan(prof, geo, x_target, x_h, psi_s, ts, fs):
         ts[j] = scan_point(j, psi_s)
         fs[j] = family_x(UP_FAMILY, ts[j], prof, geo) - x_target
     m = SCAN + 1
-    extra_t = np.empty(SCAN + 1)
-    extra_f = np.empty(SCAN + 1)
     n_extra = 0
     for j in range(SCAN + 1):
         f1 = fs[j]
@@ -312,7 +310,7 @@ def up_family_scan(prof, geo, x_target, x_h, psi_s, ts, fs):
     return m
 
 
-@kernel
+@lean_kernel
 def insert_point(ts, fs, m, t, f):
     """Insert (t, f) into the sorted scan of m points; returns m + 1."""
     if m >= ts.shape[0]:
@@ -327,8 +325,8 @@ def insert_point(ts, fs, m, t, f):
     return m + 1
 
 
-@kernel
-def solve_ice(out, kinds, conv, i, prof, x_target, z_src, z_rcv):
+@lean_kernel
+def solve_ice(out, kinds, conv, i, prof, x_target, z_src, z_rcv, scratch):
     """Every ray between two points in the ice; returns their number."""
     swapped = z_src > z_rcv
     z_lo, z_hi = (z_rcv, z_src) if swapped else (z_src, z_rcv)
@@ -356,13 +354,12 @@ def solve_ice(out, kinds, conv, i, prof, x_target, z_src, z_rcv):
     if z_hi >= 0.0:
         return k
     psi_s = math.atan2(math.sqrt(max((n_hi - n_s) * (n_hi + n_s), 0.0)), n_s)
-    ts = np.empty(2 * SCAN + 4)
-    fs = np.empty(2 * SCAN + 4)
+    ts, fs, extra_t, extra_f = scratch[0], scratch[1], scratch[2], scratch[3]
     m = 1
     ts[0] = 0.0
     fs[0] = x_h - x_target
     if psi_s > 0.0:
-        m = up_family_scan(prof, geo, x_target, x_h, psi_s, ts, fs)
+        m = up_family_scan(prof, geo, x_target, x_h, psi_s, ts, fs, extra_t, extra_f)
     else:
         fs[0] = family_x(UP_FAMILY, 0.0, prof, geo) - x_target
     n_up = 0
@@ -383,7 +380,7 @@ def solve_ice(out, kinds, conv, i, prof, x_target, z_src, z_rcv):
     return k
 
 
-@kernel
+@lean_kernel
 def solve_air_ice(out, kinds, conv, i, prof, n_air, x_target, z_src, z_rcv):
     """The transmitted ray between a point in the air and one in the ice."""
     source_in_air = z_src > 0.0
@@ -396,7 +393,7 @@ def solve_air_ice(out, kinds, conv, i, prof, n_air, x_target, z_src, z_rcv):
     return 1
 
 
-@kernel
+@lean_kernel
 def solve_layer(out, kinds, conv, i, k, prof, x_target, z_src, z_rcv, z_layer, layer_index):
     """The ray bouncing once off a reflector at z_layer below both ice points."""
     swapped = z_src > z_rcv
@@ -416,8 +413,8 @@ def solve_layer(out, kinds, conv, i, k, prof, x_target, z_src, z_rcv, z_layer, l
     return 1
 
 
-@kernel
-def solve_row(i, prof, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, count):
+@lean_kernel
+def solve_row(i, prof, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, count, scratch):
     """Solve pair i (and its bounces off ``layers``) and order its rays by travel time."""
     n_slots = out.shape[1]
     for k in range(n_slots):
@@ -434,7 +431,7 @@ def solve_row(i, prof, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, 
     elif zs > 0.0 or zr > 0.0:
         n = solve_air_ice(out, kinds, conv, i, prof, n_air, x, zs, zr)
     else:
-        n = solve_ice(out, kinds, conv, i, prof, x, zs, zr)
+        n = solve_ice(out, kinds, conv, i, prof, x, zs, zr, scratch)
         for j in range(layers.shape[0]):
             n += solve_layer(out, kinds, conv, i, n, prof, x, zs, zr, layers[j], float(j))
     count[i] = n
@@ -454,23 +451,35 @@ def solve_row(i, prof, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, 
             j -= 1
 
 
+#: Rows per parallel chunk (each chunk allocates its scratch space once).
+CHUNK = 64
+
+
 @numba.njit(parallel=True, **KERNEL_OPTIONS)
 def solve_pairs(prof, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, count):
     """Solve every pair in parallel (arguments as ``exponential_solver.solve_pairs``,
-    with the panel arrays ``prof`` in place of the exponential parameters)."""
-    for i in numba.prange(x_target.shape[0]):
-        solve_row(i, prof, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, count)
+    with the arrays of ``panel_blocks.solver_arrays`` in place of the exponential
+    parameters)."""
+    n = x_target.shape[0]
+    n_chunks = (n + CHUNK - 1) // CHUNK
+    for c in numba.prange(n_chunks):
+        scratch = np.empty((4, 2 * SCAN + 4))
+        for i in range(c * CHUNK, min(n, (c + 1) * CHUNK)):
+            solve_row(i, prof, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, count,
+                      scratch)
 
 
-@kernel
+@numba.njit(**KERNEL_OPTIONS)
 def solve_pairs_serial(prof, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, count):
     """:func:`solve_pairs` on the calling thread."""
+    scratch = np.empty((4, 2 * SCAN + 4))
     for i in range(x_target.shape[0]):
-        solve_row(i, prof, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, count)
+        solve_row(i, prof, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, count,
+                  scratch)
 
 
-@kernel
-def max_reach(prof, z_lo, z_hi):
+@lean_kernel
+def max_reach(prof, z_lo, z_hi, scratch):
     """Largest horizontal distance [m] at which any ray joins heights z_lo <= z_hi < 0."""
     n_hi = index_at(prof, z_hi)
     n_s = prof[4][0]
@@ -488,8 +497,7 @@ def max_reach(prof, z_lo, z_hi):
     best = x_h
     if psi_s <= 0.0:
         return best
-    ts = np.empty(SCAN + 1)
-    xs = np.empty(SCAN + 1)
+    ts, xs = scratch[0], scratch[1]
     ts[0] = 0.0
     xs[0] = x_h
     for j in range(1, SCAN + 1):
@@ -514,14 +522,17 @@ def max_reach(prof, z_lo, z_hi):
 @numba.njit(parallel=True, **KERNEL_OPTIONS)
 def max_reach_many(prof, antenna_z, source_z, out):
     """:func:`max_reach` for an antenna height and many source heights (NaN -> NaN)."""
-    for i in numba.prange(source_z.shape[0]):
-        z = source_z[i]
-        if not math.isfinite(z):
-            out[i] = math.nan
-        elif z > 0.0 or antenna_z > 0.0:
-            out[i] = math.inf
-        else:
-            out[i] = max_reach(prof, min(z, antenna_z), max(z, antenna_z))
+    n = source_z.shape[0]
+    for c in numba.prange((n + CHUNK - 1) // CHUNK):
+        scratch = np.empty((2, SCAN + 1))
+        for i in range(c * CHUNK, min(n, (c + 1) * CHUNK)):
+            z = source_z[i]
+            if not math.isfinite(z):
+                out[i] = math.nan
+            elif z > 0.0 or antenna_z > 0.0:
+                out[i] = math.inf
+            else:
+                out[i] = max_reach(prof, min(z, antenna_z), max(z, antenna_z), scratch)
 
 
 def allocate(n_pairs, n_layers=0):
