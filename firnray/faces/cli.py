@@ -523,7 +523,7 @@ def build_parser():
     p.set_defaults(func=_cmd_profiles)
     p = sub.add_parser("demo", help="tour of the bundled invented site and station: "
                                     "tables, figures and summaries")
-    p.add_argument("--out", default="firnray-demo",
+    p.add_argument("--out", default="firnray-demo", metavar="DIR",
                    help="output folder for the figures, summary.md and summary.json "
                         "(default: %(default)s)")
     p.set_defaults(func=_cmd_demo)
