@@ -20,7 +20,7 @@ class Reflector:
     z : float
         Height of the layer [m], < 0 (below the surface).
     amplitude : float or complex, optional
-        Fixed amplitude reflection coefficient, |r| <= 1, used for both
+        Fixed amplitude reflection coefficient, ``|r| <= 1``, used for both
         polarisations.
     n_below : float, optional
         Refractive index below the layer [1] (for example about 9 for
@@ -32,7 +32,7 @@ class Reflector:
     Raises
     ------
     ValueError
-        For a layer at or above the surface, |amplitude| > 1, a non-positive
+        For a layer at or above the surface, ``|amplitude| > 1``, a non-positive
         index, or both/neither of ``amplitude`` and ``n_below``.
     """
 
