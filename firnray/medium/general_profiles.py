@@ -444,3 +444,44 @@ class FunctionProfile(_PanelProfile):
         name = getattr(self.function, "__name__", type(self.function).__name__)
         return (f"FunctionProfile({name}, {len(self.panels)} panels, n_air={self.n_air!r}, "
                 f"z_min={self.z_min!r}, tolerance={self.tolerance!r})")
+
+
+class PanelProfile(_PanelProfile):
+    """A profile given directly as its panel stack (as stored in lookup tables).
+
+    Parameters
+    ----------
+    top : array_like, shape (M,)
+        Panel tops [m], strictly decreasing from 0; panel k reaches down to
+        top[k+1] (the last to -inf).
+    kind : array_like of int, shape (M,)
+        Panel kinds (``firnray.medium.panels``).
+    coef : array_like, shape (M, 4)
+        Panel coefficients.
+    n_air : float, optional
+        Index above the surface [1].
+    z_min : float, optional
+        Lowest valid height [m].
+    info : dict, optional
+        Metadata.
+    """
+
+    def __init__(self, top, kind, coef, n_air=1.0, z_min=DEFAULT_Z_MIN, info=None):
+        self.n_air, self.z_min = _check_air(n_air, z_min)
+        t = np.asarray(top, dtype=float)
+        if t.ndim != 1 or t.size < 1 or t[0] != 0.0 or np.any(np.diff(t) >= 0.0):
+            raise ValueError(f"top must be strictly decreasing panel tops from 0 m, got {top!r}")
+        k = np.asarray(kind, dtype=np.int64)
+        if k.shape != t.shape or not np.all(np.isin(k, (EXPONENTIAL, CUBIC, UNIFORM))):
+            raise ValueError(f"kind must hold one code (0, 1 or 2) per panel, got {kind!r}")
+        c = np.asarray(coef, dtype=float)
+        if c.shape != (t.size, 4) or not np.all(np.isfinite(c)):
+            raise ValueError(f"coef must be a finite ({t.size}, 4) array, got shape {c.shape}")
+        self.panels = PanelStack(t, np.concatenate([t[1:], [-np.inf]]), k, c)
+        if np.any(np.diff(self.panels.n_top) < -1e-12):
+            raise ValueError("the panels must give an index that does not decrease with depth")
+        self.info = dict(info or {})
+
+    def __repr__(self):
+        return (f"PanelProfile({len(self.panels)} panels, n_air={self.n_air!r}, "
+                f"z_min={self.z_min!r})")

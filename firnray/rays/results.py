@@ -9,8 +9,11 @@ import math
 
 import numpy as np
 
+from firnray.medium.profiles import ExponentialProfile
 from firnray.rays import exponential_kernels as ek
 from firnray.rays import exponential_solver as es
+from firnray.rays.panel_blocks import solver_arrays
+from firnray.rays.panel_kernels import segment
 
 #: Kind code -> name, as stored in ``RaySet.kind`` (-1 where there is no ray).
 KIND_NAMES = {es.DIRECT: "direct", es.REFRACTED: "refracted", es.REFLECTED: "reflected",
@@ -138,8 +141,14 @@ class Ray:
         Formed from the vertical slowness at the ray's reference level (no
         cancellation for near-horizontal rays); 0 at a turning point.
         """
-        a, delta, s, n_air = self._profile.parameters
         zz = np.asarray(z, dtype=float)
+        if not isinstance(self._profile, ExponentialProfile):
+            n = np.asarray(self._profile.index(np.minimum(zz, 0.0)), dtype=float)
+            n_ref = self._reference_index()
+            w2 = (n - n_ref) * (n + n_ref) + self._slowness ** 2
+            out = np.sqrt(np.maximum(w2, 0.0))
+            return float(out) if out.ndim == 0 else out
+        a, delta, s, n_air = self._profile.parameters
         u = np.exp(np.minimum(zz, 0.0) / s)
         n = a - delta * u
         if self.kind == "transmitted":
@@ -153,6 +162,14 @@ class Ray:
         w2 = delta * (u_ref - u) * (n + n_ref) + self._slowness ** 2
         out = np.sqrt(np.maximum(w2, 0.0))
         return float(out) if out.ndim == 0 else out
+
+    def _reference_index(self):
+        """Index at the level where the solver fixed the vertical slowness [1]: the
+        surface for a transmitted ray, the shallower end point otherwise."""
+        if self.kind == "transmitted":
+            return float(self._profile.index(0.0))
+        return float(self._profile.index(min(max(float(self.source[2]),
+                                                 float(self.receiver[2])), 0.0)))
 
     def as_dict(self):
         """The ray's quantities as a plain dict (units as the attributes)."""
@@ -196,6 +213,8 @@ class Ray:
         """
         if not isinstance(n_points, (int, np.integer)) or n_points < 2:
             raise ValueError(f"n_points must be an integer >= 2, got {n_points!r}")
+        if not isinstance(self._profile, ExponentialProfile):
+            return panel_ray_path(self, int(n_points))
         if self.kind == "layer-reflected":
             return _layer_path(self, int(n_points))
         return ray_path(self._profile, self.source, self.receiver, self.kind,
@@ -313,6 +332,77 @@ def ray_path(profile, source, receiver, kind, b, p, n_points):
     out = np.empty(len(xx), dtype=PATH_DTYPE)
     out["x"], out["z"] = xx, zz
     return out
+
+
+def _assemble(xx, zz, forward):
+    if not forward:
+        xx = xx[-1] - xx[::-1]
+        zz = zz[::-1]
+    out = np.empty(len(xx), dtype=PATH_DTYPE)
+    out["x"], out["z"] = xx, zz
+    return out
+
+
+#: Height scale [m] over which the path points of a general profile crowd into the firn.
+PATH_FIRN_SCALE = 30.0
+
+
+def panel_ray_path(ray, n_points):
+    """Points (x, z) of a ray in a general (panel) profile; see :meth:`Ray.path`.
+
+    Each point's horizontal distance is the ray integral X from the piece's
+    lower end (``panel_kernels.segment``), with the reference level of the
+    solver (the shallower point, or the surface for a transmitted ray).
+    """
+    prof = solver_arrays(ray._profile.panels)
+    b, p = ray.invariant, ray._slowness
+    n_ref = ray._reference_index()
+    zs, zr = float(ray.source[2]), float(ray.receiver[2])
+    x_total = math.hypot(*(ray.receiver[:2] - ray.source[:2]))
+    n_air = ray._profile.n_air
+    s = PATH_FIRN_SCALE
+
+    def xs(z1, heights, turning=False, downward=False):
+        if downward:   # distance from each height up to the top z1
+            return np.array([segment(prof, b, n_ref, p, z, z1, turning)[0] for z in heights])
+        return np.array([segment(prof, b, n_ref, p, z1, z, False)[0] for z in heights])
+
+    if ray.kind == "transmitted":
+        z_ice, h = (zr, zs) if zs > 0.0 else (zs, zr)
+        zz = _rising(z_ice, 0.0, n_points, False, s) if z_ice < 0.0 else np.array([0.0])
+        xx = xs(z_ice, zz)
+        za = np.linspace(0.0, h, n_points)[1:]
+        xa = xx[-1] + za * b / math.sqrt(n_air * n_air - b * b)
+        return _assemble(np.concatenate([xx, xa]), np.concatenate([zz, za]), zs <= 0.0)
+    if zs > 0.0 and zr > 0.0:
+        return ray_path(ExponentialProfile(n_air + 1.0, n_air + 1.0, 1.0, n_air=n_air),
+                        ray.source, ray.receiver, ray.kind, b, p, n_points)
+    swapped = zs > zr
+    z_lo, z_hi = (zr, zs) if swapped else (zs, zr)
+    if ray.kind == "layer-reflected":
+        zl = ray.reflector.z
+        down = _rising(zl, zs, n_points, False, s)[::-1]
+        x_down = xs(zl, down)
+        up = _rising(zl, zr, n_points, False, s)[1:]
+        x_up = x_down[-1] + xs(zl, up)
+        return _assemble(np.concatenate([x_down[-1] - x_down, x_up]),
+                         np.concatenate([down, up]), True)
+    if ray.kind == "direct":
+        if z_lo == z_hi:   # horizontal straight ray in uniform ice
+            xx = np.linspace(0.0, x_total, n_points)
+            return _assemble(xx, np.full(n_points, z_lo), True)
+        zz = _rising(z_lo, z_hi, n_points, False, s)
+        return _assemble(xs(z_lo, zz), zz, not swapped)
+    turn = ray.kind == "refracted"
+    z_top = ray.turning_z if turn else 0.0
+    up = _rising(z_lo, z_top, n_points, turn, s)
+    x_up = xs(z_lo, up[:-1])
+    x_top = segment(prof, b, n_ref, p, z_lo, z_top, turn)[0]
+    down = _rising(z_hi, z_top, n_points, turn, s)[::-1]
+    x_dn = xs(z_top, down[1:], turning=turn, downward=True)
+    xx = np.concatenate([x_up, [x_top], x_top + x_dn])
+    zz = np.concatenate([up[:-1], [z_top], down[1:]])
+    return _assemble(xx, zz, not swapped)
 
 
 class RaySet:

@@ -1,7 +1,10 @@
 """The two entry points of the ray layer: ``find_rays`` and ``find_rays_many``.
 
-Both run the same compiled solver (``exponential_solver.solve_pairs``);
-``find_rays`` is ``find_rays_many`` on one pair.
+Both run the same compiled solver, chosen by the profile: the closed form of
+``exponential_solver`` for an ``ExponentialProfile``, the panel solver of
+``panel_solver`` (closed form on exponential panels, quadrature on the
+others) for every other profile; ``find_rays`` is ``find_rays_many`` on one
+pair.
 """
 
 import warnings
@@ -14,6 +17,8 @@ from firnray.errors import FirnrayWarning
 from firnray.medium.profiles import ExponentialProfile, IndexProfile
 from firnray.medium.reflectors import Reflector
 from firnray.rays import exponential_solver as es
+from firnray.rays import panel_solver as ps
+from firnray.rays.panel_blocks import solver_arrays
 from firnray.rays.results import RaySet
 
 
@@ -26,9 +31,10 @@ def check_profile(profile):
         raise ValueError(f"profile must be an index profile (for example "
                          f"firnray.ExponentialProfile or firnray.load_profile(...)), "
                          f"got {profile!r}")
-    if not isinstance(profile, ExponentialProfile):
-        raise ValueError(f"profile kind {type(profile).__name__} is not supported by the "
-                         f"solver yet; expected an ExponentialProfile")
+    if getattr(profile, "panels", None) is None:
+        raise ValueError(f"profile kind {type(profile).__name__} does not describe itself "
+                         f"as panels (firnray.medium.panels); expected one of firnray's "
+                         f"profile classes")
 
 
 def _check_workers(workers):
@@ -50,6 +56,56 @@ def _layers(reflectors):
         if not isinstance(r, Reflector):
             raise ValueError(f"reflectors[{i}] must be a firnray.Reflector, got {r!r}")
     return items, np.array([r.z for r in items], dtype=float)
+
+
+def run_solver(profile, x, zs, zr, layers=es.NO_LAYERS, n_threads=None):
+    """Run the compiled solver that suits ``profile`` on flat arrays.
+
+    Parameters
+    ----------
+    profile : IndexProfile
+    x, zs, zr : ndarray, shape (N,)
+        Horizontal distances, source and receiver heights [m] (NaN rows give
+        no ray).
+    layers : ndarray, shape (L,)
+        Reflector heights [m].
+    n_threads : int, optional
+        Threads to use (default: all numba may use); batches below
+        ``SERIAL_BELOW`` run on the calling thread.
+
+    Returns
+    -------
+    table, kinds, conv, count : ndarray
+        (N, K, N_COLS) ray quantities, (N, K) kind codes and convergence flags,
+        (N,) ray counts (columns of ``exponential_solver``).  The panel solver
+        keeps K = max(2, most rays of any pair) columns.
+    """
+    n_threads = numba.config.NUMBA_NUM_THREADS if n_threads is None else n_threads
+    serial = n_threads == 1 or x.shape[0] < SERIAL_BELOW
+    if isinstance(profile, ExponentialProfile):
+        table, kinds, conv, count = es.allocate(x.shape[0], len(layers))
+        args = profile.parameters
+        solver = es.solve_pairs_serial if serial else es.solve_pairs
+    else:
+        table, kinds, conv, count = ps.allocate(x.shape[0], len(layers))
+        args = (solver_arrays(profile.panels), profile.n_air)
+        solver = ps.solve_pairs_serial if serial else ps.solve_pairs
+    x = np.ascontiguousarray(x, dtype=float)
+    zs = np.ascontiguousarray(zs, dtype=float)
+    zr = np.ascontiguousarray(zr, dtype=float)
+    if serial:
+        solver(*args, x, zs, zr, layers, table, kinds, conv, count)
+    else:
+        previous = numba.get_num_threads()
+        numba.set_num_threads(n_threads)
+        try:
+            solver(*args, x, zs, zr, layers, table, kinds, conv, count)
+        finally:
+            numba.set_num_threads(previous)
+    if not isinstance(profile, ExponentialProfile):
+        keep = max(2, int(count.max()) if count.size else 0)
+        table, kinds, conv = (np.ascontiguousarray(a[:, :keep]) for a in (table, kinds, conv))
+    return table, kinds, conv, count
 
 
 def solve_arrays(profile, sources, receivers, workers=None, reflectors=None):
@@ -74,17 +130,7 @@ def solve_arrays(profile, sources, receivers, workers=None, reflectors=None):
     items, layers = _layers(reflectors)
     if np.any(layers < profile.z_min):
         raise ValueError(f"reflectors lie below the profile's valid range (z >= {profile.z_min} m)")
-    table, kinds, conv, count = es.allocate(x.shape[0], len(layers))
-    a, delta, s, n_air = profile.parameters
-    if n_threads == 1 or x.shape[0] < SERIAL_BELOW:
-        es.solve_pairs_serial(a, delta, s, n_air, x, zs, zr, layers, table, kinds, conv, count)
-    else:
-        previous = numba.get_num_threads()
-        numba.set_num_threads(n_threads)
-        try:
-            es.solve_pairs(a, delta, s, n_air, x, zs, zr, layers, table, kinds, conv, count)
-        finally:
-            numba.set_num_threads(previous)
+    table, kinds, conv, count = run_solver(profile, x, zs, zr, layers, n_threads)
     if not np.all(conv | (kinds < 0)):
         warnings.warn("the root finder did not meet its tolerance for some rays; "
                       "see RaySet.converged", FirnrayWarning, stacklevel=3)

@@ -6,7 +6,8 @@ closed-form peak search of the solver, not by scanning a grid: beyond it the
 antenna is in the shadow of the source.  With a point on the surface only
 the direct family exists and the boundary is the direct horizon.  Sources in
 the air (transmitted rays) and uniform ice have no shadow zone (infinite
-boundary).
+boundary).  A general (panel) profile uses the scan-and-refine search of
+``panel_solver.max_reach``.
 """
 
 import math
@@ -17,6 +18,9 @@ import numpy as np
 from firnray.checks import finite_float
 from firnray.rays import exponential_kernels as ek
 from firnray.rays import exponential_solver as es
+from firnray.medium.profiles import ExponentialProfile
+from firnray.rays import panel_solver as ps
+from firnray.rays.panel_blocks import solver_arrays
 from firnray.rays.solve import check_profile
 
 
@@ -70,8 +74,11 @@ def shadow_boundary(profile, antenna_z, source_z):
         raise ValueError(f"source_z has heights below the profile's valid range "
                          f"(z >= {profile.z_min} m): min {np.nanmin(flat)!r}")
     out = np.empty_like(flat)
-    a, delta, s, _ = profile.parameters
-    boundary_many(a, delta, s, antenna_z, flat, out)
+    if isinstance(profile, ExponentialProfile):
+        a, delta, s, _ = profile.parameters
+        boundary_many(a, delta, s, antenna_z, flat, out)
+    else:
+        ps.max_reach_many(solver_arrays(profile.panels), antenna_z, flat, out)
     out = out.reshape(z.shape)
     return float(out) if out.ndim == 0 else out
 

@@ -24,6 +24,7 @@ import numba
 import numpy as np
 
 from firnray.checks import finite_float
+from firnray.medium.general_profiles import PanelProfile
 from firnray.medium.profiles import ExponentialProfile
 from firnray.rays import exponential_kernels as ek
 from firnray.rays.solve import check_profile, find_rays_many
@@ -58,9 +59,24 @@ def _axis_values(axis):
 
 
 def _profile_record(profile):
-    return {"kind": "exponential", "n_deep": profile.n_deep, "n_surface": profile.n_surface,
-            "scale_depth": profile.scale_depth, "n_air": profile.n_air,
-            "z_min": profile.z_min, "info": profile.info}
+    """The profile as JSON: its parameters (exponential) or its panel stack (any other)."""
+    if isinstance(profile, ExponentialProfile):
+        return {"kind": "exponential", "n_deep": profile.n_deep,
+                "n_surface": profile.n_surface, "scale_depth": profile.scale_depth,
+                "n_air": profile.n_air, "z_min": profile.z_min, "info": profile.info}
+    stack = profile.panels
+    return {"kind": "panels", "class": type(profile).__name__, "top": stack.top.tolist(),
+            "panel_kind": stack.kind.tolist(), "coef": stack.coef.tolist(),
+            "n_air": profile.n_air, "z_min": profile.z_min, "info": profile.info}
+
+
+def _profile_from_record(p):
+    """Rebuild the profile of a table record (``_profile_record``)."""
+    if p["kind"] == "exponential":
+        return ExponentialProfile(p["n_deep"], p["n_surface"], p["scale_depth"],
+                                  n_air=p["n_air"], z_min=p["z_min"], info=p.get("info"))
+    return PanelProfile(p["top"], p["panel_kind"], p["coef"], n_air=p["n_air"],
+                        z_min=p["z_min"], info=p.get("info"))
 
 
 def _fingerprint(record):
@@ -87,8 +103,7 @@ def compute_chunk(task):
         One (nz, nx, 2) array per float quantity, ``kind`` (int8) and
         ``count`` (int16, (nz, nx)).
     """
-    n_deep, n_surface, scale, n_air, z_min = task["profile"]
-    prof = ExponentialProfile(n_deep, n_surface, scale, n_air=n_air, z_min=z_min)
+    prof = _profile_from_record(task["profile"])
     x = np.asarray(task["distance"], float)
     z = np.asarray(task["source_z"], float)
     rs = rays_to_antenna(prof, task["antenna_z"], x, z, task.get("workers"))
@@ -97,10 +112,10 @@ def compute_chunk(task):
     for q in FLOAT_QUANTITIES:
         arr = np.full((n, MAX_RAYS), np.nan)
         vals = getattr(rs, q)
-        arr[:, :vals.shape[1]] = vals
+        arr[:, :min(vals.shape[1], MAX_RAYS)] = vals[:, :MAX_RAYS]
         out[q] = arr.reshape(len(z), len(x), MAX_RAYS)
     kinds = np.full((n, MAX_RAYS), -1, np.int8)
-    kinds[:, :rs.kind.shape[1]] = rs.kind
+    kinds[:, :min(rs.kind.shape[1], MAX_RAYS)] = rs.kind[:, :MAX_RAYS]
     out["kind"] = kinds.reshape(len(z), len(x), MAX_RAYS)
     out["count"] = rs.count.astype(np.int16).reshape(len(z), len(x))
     return out
@@ -167,8 +182,7 @@ def _chunk_tasks(record):
     x = _axis_values(record["grid"]["distance"])
     z = _axis_values(record["grid"]["source_z"])
     cz, cx = record["chunk_shape"]
-    p = record["profile"]
-    prof = (p["n_deep"], p["n_surface"], p["scale_depth"], p["n_air"], p["z_min"])
+    prof = {k: v for k, v in record["profile"].items() if k != "info"}
     tasks = []
     for iz, sz in enumerate(chunk_slices(len(z), cz)):
         for ix, sx in enumerate(chunk_slices(len(x), cx)):
@@ -340,9 +354,7 @@ class LookupTable:
         self.distance = _axis_values(record["grid"]["distance"])
         self.source_z = _axis_values(record["grid"]["source_z"])
         self.antenna_z = record["antenna_z"]
-        p = record["profile"]
-        self.profile = ExponentialProfile(p["n_deep"], p["n_surface"], p["scale_depth"],
-                                          n_air=p["n_air"], z_min=p["z_min"], info=p["info"])
+        self.profile = _profile_from_record(record["profile"])
         self.data = data
         self._contiguous = {}
 

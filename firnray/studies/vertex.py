@@ -18,7 +18,7 @@ import numpy as np
 from firnray.checks import finite_float
 from firnray.constants import SPEED_OF_LIGHT
 from firnray.rays import exponential_solver as es
-from firnray.rays.solve import check_profile, find_rays_many
+from firnray.rays.solve import check_profile, find_rays_many, run_solver
 from firnray.rays.results import KIND_NAMES
 
 #: Residual [sigma] given to a measured pulse for which the vertex has no ray.
@@ -120,10 +120,9 @@ class _Model:
     """Travel times from one vertex to the antennas that saw pulses (fast path)."""
 
     def __init__(self, profile, positions):
-        self.params = profile.parameters
+        self.profile = profile
         self.index = profile.index
         self.positions = positions
-        self.buffers = es.allocate(len(positions))
 
     def times(self, vertices, with_slowness=False):
         """Travel times [ns], shape (V, A, 2), NaN where no ray; with ``with_slowness``
@@ -138,9 +137,9 @@ class _Model:
         zr = np.tile(self.positions[:, 2], v)
         same = (x == 0.0) & (zs == zr)
         x[same] = np.nan
-        table, kinds, conv, count = (self.buffers if v == 1 else es.allocate(v * a))
-        solver = es.solve_pairs_serial if v * a < 256 else es.solve_pairs
-        solver(*self.params, x, zs, zr, es.NO_LAYERS, table, kinds, conv, count)
+        table, kinds, conv, count = run_solver(self.profile, x, zs, zr,
+                                               n_threads=1 if v * a < 256 else None)
+        table = table[:, :2]      # the two earliest pulses
         times = table[:, :, es.COL_TIME].reshape(v, a, 2).copy()
         if not with_slowness:
             return times
