@@ -21,6 +21,13 @@ from firnray.medium.files import bundled_profiles, load_profile
 from firnray.medium.attenuation import (ArrheniusAttenuation, CallableAttenuation,
                                         ConstantAttenuation, TabulatedAttenuation)
 from firnray.medium.profiles import ExponentialProfile, IndexProfile
+from firnray.medium.general_profiles import (FunctionProfile, PiecewiseExponentialProfile,
+                                             TabulatedProfile)
+from firnray.medium.firn_density import (density_to_index, herron_langway_density,
+                                         herron_langway_profile, index_profile_from_density,
+                                         kovacs_index, looyenga_index)
+from firnray.medium.index_fit import (IndexFit, fit_exponential_index,
+                                      fit_piecewise_exponential_index)
 from firnray.medium.reflectors import Reflector
 from firnray.medium.temperature import (LinearTemperature, RobinTemperature,
                                         TabulatedTemperature)
@@ -70,6 +77,18 @@ __all__ = [
     "DelayGrid",
     "DelayInversion",
     "ExponentialProfile",
+    "FunctionProfile",
+    "IndexFit",
+    "PiecewiseExponentialProfile",
+    "TabulatedProfile",
+    "density_to_index",
+    "fit_exponential_index",
+    "fit_piecewise_exponential_index",
+    "herron_langway_density",
+    "herron_langway_profile",
+    "index_profile_from_density",
+    "kovacs_index",
+    "looyenga_index",
     "FirnrayWarning",
     "IndexProfile",
     "KIND_CODES",

@@ -8,6 +8,7 @@
     firnray vertex predict|fit|validate ...
     firnray profile-fit --station S --delays CSV [--free n_surface,scale_depth]
     firnray budget [--profile ...] --source X,Z --receiver X,Z --freq 100,200,400
+    firnray profile NAME|FILE [--depth A:B:N] [--fit] [--plot PNG] [--json]
     firnray profiles
     firnray demo [--out DIR]
 
@@ -433,6 +434,59 @@ def _cmd_profiles(args):
     return 0
 
 
+def _cmd_profile(args):
+    prof = _load(args, args.name)
+    depth = _parse_grid("depth", args.depth)
+    if np.any(depth < 0) or np.any(-depth < prof.z_min):
+        raise UsageError(f"--depth expects depths from 0 down to {-prof.z_min} m, got {args.depth!r}")
+    n = np.atleast_1d(prof.index(-depth))
+    samples = None
+    fit = None
+    if args.fit:
+        if hasattr(prof, "z") and hasattr(prof, "n"):          # a table: fit its samples
+            samples = (-prof.z, prof.n)
+            z_fit, n_fit = prof.z, prof.n
+        else:
+            z_fit, n_fit = -depth, n
+        try:
+            fit = firnray.fit_exponential_index(z_fit, n_fit)
+        except ValueError as err:
+            raise UsageError(f"--fit: {err}") from None
+    info = prof.info
+    if args.json:
+        out = {"name": info.get("name"), "class": type(prof).__name__,
+               "citation": info.get("source", {}).get("citation", info.get("citation")),
+               "depth_m": depth.tolist(), "n": n.tolist()}
+        if fit is not None:
+            out["fit"] = {"kind": fit.kind, "parameters": dict(fit.parameters),
+                          "uncertainties": dict(fit.uncertainties), "chi2": fit.chi2,
+                          "dof": fit.dof,
+                          "max_abs_residual": float(np.max(np.abs(fit.residuals)))}
+        print(json.dumps(out, indent=1))
+    else:
+        print(f"profile {info.get('name', args.name)} ({type(prof).__name__})")
+        cite = info.get("source", {}).get("citation") or info.get("citation")
+        if cite:
+            print(f"source: {cite}")
+        print(f"n_air = {prof.n_air}, valid down to z = {prof.z_min} m")
+        print("")
+        print(f"{'depth [m]':>10}{'z [m]':>10}{'n':>12}")
+        for d, v in zip(depth, n):
+            print(f"{d:>10.2f}{-d:>10.2f}{v:>12.6f}")
+        if fit is not None:
+            print("")
+            print(fit.summary())
+    if args.plot:
+        import matplotlib
+        matplotlib.use("Agg")
+        from firnray.faces.plots import plot_index_profile
+        ax = plot_index_profile(prof, np.linspace(depth.min(), depth.max(), 400), fit=fit,
+                                samples=samples)
+        ax.set_title(str(info.get("name", args.name)))
+        print(f"wrote {_save(ax.figure, args.plot)}")
+    return 0
+
+
 def _cmd_demo(args):
     from firnray.faces import demo
     try:
@@ -519,6 +573,16 @@ def build_parser():
                         "the invented demo ice column)")
     p.add_argument("--json", action="store_true", help="print JSON")
     p.set_defaults(func=_cmd_budget)
+    p = sub.add_parser("profile", help="print a profile on a depth grid; fit or plot it")
+    p.add_argument("name", metavar="NAME|FILE", help="bundled profile name or YAML file")
+    p.add_argument("--depth", default="0:200:21",
+                   help="depths START:STOP:COUNT [m], positive down (default: %(default)s)")
+    p.add_argument("--fit", action="store_true",
+                   help="least-squares exponential fit with uncertainties (to a table's own "
+                        "samples, otherwise to the depth grid)")
+    p.add_argument("--plot", help="write n against depth to this PNG file")
+    p.add_argument("--json", action="store_true", help="print JSON")
+    p.set_defaults(func=_cmd_profile)
     p = sub.add_parser("profiles", help="list the bundled profiles")
     p.set_defaults(func=_cmd_profiles)
     p = sub.add_parser("demo", help="tour of the bundled invented site and station: "

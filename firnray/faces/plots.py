@@ -325,3 +325,36 @@ def _bin_count(bins, n):
     if isinstance(bins, bool) or not isinstance(bins, (int, np.integer)) or bins < 1:
         raise ValueError(f"bins must be an integer >= 1, got {bins!r}")
     return int(bins)
+
+
+def plot_index_profile(profile, depth, fit=None, samples=None, ax=None):
+    """Draw n against depth, with an index fit and the samples it was made from.
+
+    Parameters
+    ----------
+    profile : IndexProfile
+    depth : array_like
+        Depths below the surface to draw [m] (>= 0, positive down).
+    fit : IndexFit, optional
+        Drawn dashed over the profile (``firnray.fit_exponential_index``).
+    samples : tuple of array_like, optional
+        (depth [m], n [1]) points to mark, for example a table's samples.
+    ax : matplotlib Axes, optional
+
+    Returns
+    -------
+    matplotlib Axes
+    """
+    ax = _axes(ax, figsize=(4.5, 6.0))
+    d = np.asarray(depth, dtype=float)
+    ax.plot(profile.index(-d), d, color="tab:blue", label="profile")
+    if samples is not None:
+        ax.plot(samples[1], samples[0], ".", color="0.3", ms=3, label="samples")
+    if fit is not None:
+        ax.plot(fit.evaluate(-d), d, "--", color="tab:orange", label=f"{fit.kind} fit")
+    ax.invert_yaxis()
+    ax.set_xlabel("refractive index n")
+    ax.set_ylabel("depth [m]")
+    ax.legend(loc="lower left")
+    ax.grid(alpha=0.3)
+    return ax

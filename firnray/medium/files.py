@@ -26,6 +26,8 @@ from importlib import resources
 import yaml
 
 from firnray.errors import ProfileFileError
+from firnray.medium.firn_density import herron_langway_profile, index_profile_from_density
+from firnray.medium.general_profiles import PiecewiseExponentialProfile, TabulatedProfile
 from firnray.medium.profiles import ExponentialProfile
 
 FORMAT_VERSION = 1
@@ -34,9 +36,19 @@ DEFAULT_PROFILE = "demo-dry-firn"
 _TOP_KEYS = {"firnray_profile", "name", "description", "kind", "parameters",
              "valid_range_m", "source"}
 _SOURCE_KEYS = {"citation", "doi", "note"}
+#: kind -> (required parameters, optional parameters)
 _KIND_PARAMETERS = {
     "exponential": ({"n_deep", "n_surface", "scale_depth_m"}, {"n_air"}),
+    "piecewise_exponential": ({"n_surface", "breaks_m", "n_deep", "scale_depth_m"}, {"n_air"}),
+    "index_table": (set(), {"csv", "depth_m", "n", "n_air"}),
+    "density_table": (set(), {"csv", "depth_m", "density_kg_m3", "relation",
+                              "ice_permittivity", "n_air"}),
+    "densification": ({"model", "temperature_c", "accumulation_m_we_per_yr",
+                       "surface_density_kg_m3"},
+                      {"ice_density_kg_m3", "bottom_depth_m", "spacing_m", "relation", "n_air"}),
 }
+_RELATIONS = ("kovacs", "looyenga")
+_DENSIFICATION_MODELS = ("herron_langway",)
 
 
 def bundled_profile_dir():
@@ -89,7 +101,6 @@ def profile_from_mapping(data, path="<mapping>"):
                                          f"allowed: {sorted(required | optional)}")
     for key in sorted(required - set(params)):
         _fail(path, f"parameters.{key}", "missing")
-    values = {k: _number(path, f"parameters.{k}", v) for k, v in params.items()}
     z_min = None
     if "valid_range_m" in data:
         rng = data["valid_range_m"]
@@ -107,13 +118,160 @@ def profile_from_mapping(data, path="<mapping>"):
         _fail(path, f"source.{key}", f"unknown key; allowed: {sorted(_SOURCE_KEYS)}")
     info = {"name": data["name"], "description": data.get("description", ""),
             "source": dict(source), "file": str(path)}
-    kwargs = {} if z_min is None else {"z_min": z_min}
+    kwargs = {"info": info}
+    if z_min is not None:
+        kwargs["z_min"] = z_min
+    if "n_air" in params:
+        kwargs["n_air"] = _number(path, "parameters.n_air", params["n_air"])
     try:
-        return ExponentialProfile(values["n_deep"], values["n_surface"],
-                                  values["scale_depth_m"], n_air=values.get("n_air", 1.0),
-                                  info=info, **kwargs)
+        return _BUILDERS[kind](path, params, kwargs)
+    except ProfileFileError:
+        raise
     except ValueError as err:
         raise ProfileFileError(f"{path}: key 'parameters': {err}") from None
+
+
+def _numbers(path, key, value, allow_scalar=False):
+    """A list of numbers (or, with ``allow_scalar``, one number) from YAML."""
+    if allow_scalar and not isinstance(value, list):
+        return _number(path, key, value)
+    if not isinstance(value, list):
+        _fail(path, key, f"expected a list of numbers, got {value!r}")
+    return [_number(path, f"{key}[{i}]", v) for i, v in enumerate(value)]
+
+
+def _choice(path, key, value, choices):
+    if value not in choices:
+        _fail(path, key, f"expected one of {list(choices)}, got {value!r}")
+    return value
+
+
+def read_table_csv(path, columns):
+    """Read numeric columns from a CSV file with a header row ('#' lines are comments).
+
+    Parameters
+    ----------
+    path : str
+        CSV file.
+    columns : sequence of str
+        Header names to return, in this order.
+
+    Returns
+    -------
+    list of ndarray
+        One float array per column.
+
+    Raises
+    ------
+    ProfileFileError
+        If the file is missing, a column is absent or a value is not a number;
+        the message names the file, the line and the column.
+    """
+    import csv
+
+    import numpy as np
+
+    try:
+        with open(path, encoding="utf-8", newline="") as fh:
+            lines = [(i + 1, line) for i, line in enumerate(fh)
+                     if line.strip() and not line.lstrip().startswith("#")]
+    except OSError as err:
+        raise ProfileFileError(f"{path}: cannot read the table: {err.strerror}") from None
+    if not lines:
+        raise ProfileFileError(f"{path}: the table is empty")
+    rows = list(csv.reader([line for _, line in lines]))
+    header = [h.strip() for h in rows[0]]
+    missing = [c for c in columns if c not in header]
+    if missing:
+        raise ProfileFileError(f"{path}: line {lines[0][0]}: column '{missing[0]}' missing; "
+                               f"the header has {header}")
+    idx = [header.index(c) for c in columns]
+    out = [[] for _ in columns]
+    for (lineno, _), row in zip(lines[1:], rows[1:]):
+        for j, (c, k) in enumerate(zip(columns, idx)):
+            try:
+                out[j].append(float(row[k]))
+            except (ValueError, IndexError):
+                raise ProfileFileError(f"{path}: line {lineno}: column '{c}': expected a "
+                                       f"number, got {row[k] if k < len(row) else ''!r}") from None
+    return [np.array(v) for v in out]
+
+
+def _table(path, params, names):
+    """Columns ``names`` from ``parameters.csv`` (relative to the YAML file) or inline lists."""
+    import numpy as np
+
+    if "csv" in params:
+        for key in names:
+            if key in params:
+                _fail(path, f"parameters.{key}", "give the table either inline or as 'csv', "
+                                                 "not both")
+        rel = params["csv"]
+        if not isinstance(rel, str):
+            _fail(path, "parameters.csv", f"expected a file path, got {rel!r}")
+        csv_path = os.path.join(os.path.dirname(os.fspath(path)), rel)
+        return read_table_csv(csv_path, names)
+    for key in names:
+        if key not in params:
+            _fail(path, f"parameters.{key}", "missing (or give 'csv')")
+    cols = [np.array(_numbers(path, f"parameters.{k}", params[k])) for k in names]
+    if len({c.size for c in cols}) != 1:
+        _fail(path, f"parameters.{names[1]}", f"expected as many values as "
+                                              f"parameters.{names[0]} ({cols[0].size})")
+    return cols
+
+
+def _build_exponential(path, params, kwargs):
+    values = {k: _number(path, f"parameters.{k}", params[k])
+              for k in ("n_deep", "n_surface", "scale_depth_m")}
+    return ExponentialProfile(values["n_deep"], values["n_surface"], values["scale_depth_m"],
+                              **kwargs)
+
+
+def _build_piecewise(path, params, kwargs):
+    return PiecewiseExponentialProfile(
+        _number(path, "parameters.n_surface", params["n_surface"]),
+        _numbers(path, "parameters.breaks_m", params["breaks_m"]),
+        _numbers(path, "parameters.n_deep", params["n_deep"], allow_scalar=True),
+        _numbers(path, "parameters.scale_depth_m", params["scale_depth_m"], allow_scalar=True),
+        **kwargs)
+
+
+def _build_index_table(path, params, kwargs):
+    depth, n = _table(path, params, ("depth_m", "n"))
+    return TabulatedProfile(-depth, n, **kwargs)
+
+
+def _build_density_table(path, params, kwargs):
+    depth, rho = _table(path, params, ("depth_m", "density_kg_m3"))
+    relation = _choice(path, "parameters.relation", params.get("relation", "kovacs"), _RELATIONS)
+    extra = {}
+    if "ice_permittivity" in params:
+        if relation != "looyenga":
+            _fail(path, "parameters.ice_permittivity", "only used with relation 'looyenga'")
+        extra["ice_permittivity"] = _number(path, "parameters.ice_permittivity",
+                                            params["ice_permittivity"])
+    return index_profile_from_density(-depth, rho, relation=relation, **extra, **kwargs)
+
+
+def _build_densification(path, params, kwargs):
+    _choice(path, "parameters.model", params["model"], _DENSIFICATION_MODELS)
+    num = {k: _number(path, f"parameters.{k}", params[k]) for k in params
+           if k not in ("model", "relation", "n_air")}
+    relation = _choice(path, "parameters.relation", params.get("relation", "kovacs"), _RELATIONS)
+    extra = {}
+    if "ice_density_kg_m3" in num:
+        extra["ice_density"] = num["ice_density_kg_m3"]
+    return herron_langway_profile(num["temperature_c"], num["accumulation_m_we_per_yr"],
+                                  num["surface_density_kg_m3"],
+                                  z_bottom=-num.get("bottom_depth_m", 200.0),
+                                  spacing=num.get("spacing_m", 0.5), relation=relation,
+                                  **extra, **kwargs)
+
+
+_BUILDERS = {"exponential": _build_exponential, "piecewise_exponential": _build_piecewise,
+             "index_table": _build_index_table, "density_table": _build_density_table,
+             "densification": _build_densification}
 
 
 def load_profile(name_or_path=DEFAULT_PROFILE):

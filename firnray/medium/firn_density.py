@@ -25,6 +25,8 @@ year.  Scalar in, scalar out; arrays in, arrays (broadcast) out.
 import numpy as np
 
 from firnray.checks import finite_float, positive_float
+from firnray.medium.general_profiles import TabulatedProfile
+from firnray.medium.profiles import DEFAULT_Z_MIN
 
 #: Density of solid ice [kg m^-3] (value of common practice; the same value
 #: as ``firnray.medium.temperature.ICE_DENSITY``).
@@ -413,21 +415,8 @@ def herron_langway_density(z, temperature, accumulation, surface_density,
 
 # --------------------------------------------------------------------------- profiles
 
-def _profile_class(name):
-    """The profile class ``name`` from ``firnray.medium.profiles`` (imported on use)."""
-    from firnray.medium import profiles
-    cls = getattr(profiles, name, None)
-    if cls is None:   # the general profiles may live in their own module
-        from firnray.medium import general_profiles
-        cls = getattr(general_profiles, name)
-    return cls
-
-
-def _tabulated_profile(z, n, **kw):
-    return _profile_class("TabulatedProfile")(z, n, **kw)
-
-
-def index_profile_from_density(z, density, relation="kovacs", info=None, **kw):
+def index_profile_from_density(z, density, relation="kovacs", info=None, n_air=1.0,
+                               z_min=DEFAULT_Z_MIN, **kw):
     """Tabulated index profile from density samples.
 
     Parameters
@@ -442,6 +431,10 @@ def index_profile_from_density(z, density, relation="kovacs", info=None, **kw):
         The density -> index relation (:func:`density_to_index`).
     info : dict, optional
         Name, description and citation for the profile.
+    n_air : float, optional
+        Index above the surface [1] (default 1.0).
+    z_min : float, optional
+        Lowest valid height of the profile [m] (default -5000 m).
     **kw
         Keywords of the relation (``ice_permittivity``, ``ice_density``).
 
@@ -472,11 +465,12 @@ def index_profile_from_density(z, density, relation="kovacs", info=None, **kw):
                          f"{rho[i + 1]!r} kg/m^3 at z = {zs[i + 1]!r} m")
     info = dict(info or {})
     info.setdefault("density_relation", relation)
-    return _tabulated_profile(zs, n, info=info)
+    return TabulatedProfile(zs, n, n_air=n_air, z_min=z_min, info=info)
 
 
 def herron_langway_profile(temperature, accumulation, surface_density, z_bottom=-200.0,
-                           spacing=0.5, relation="kovacs", ice_density=ICE_DENSITY, **kw):
+                           spacing=0.5, relation="kovacs", ice_density=ICE_DENSITY, n_air=1.0,
+                           z_min=DEFAULT_Z_MIN, info=None, **kw):
     """Tabulated index profile of a Herron & Langway (1980) firn column.
 
     Samples :func:`herron_langway_density` every ``spacing`` metres from the
@@ -501,6 +495,12 @@ def herron_langway_profile(temperature, accumulation, surface_density, z_bottom=
         Density of solid ice [kg/m^3] (default 917): used by the
         densification model and, for ``"looyenga"``, also by the mixing
         formula (unless ``**kw`` gives the mixing formula its own).
+    n_air : float, optional
+        Index above the surface [1] (default 1.0).
+    z_min : float, optional
+        Lowest valid height of the profile [m] (default -5000 m).
+    info : dict, optional
+        Name, description and citation (the model and its parameters are added).
     **kw
         Further keywords of the relation (``ice_permittivity``).
 
@@ -539,11 +539,12 @@ def herron_langway_profile(temperature, accumulation, surface_density, z_bottom=
         raise ValueError(f"z_bottom = {z_bottom!r} m is too deep for this site: the density "
                          f"reaches the ice density to double precision near z = {z[i]!r} m; "
                          f"choose a shallower z_bottom")
-    info = {"name": "herron-langway",
+    model = {"name": "herron-langway",
             "description": (f"Herron & Langway (1980) firn at {temperature} °C, "
                             f"{accumulation} m w.e./yr, surface density {surface_density} "
                             f"kg/m^3; index by the {relation} relation"),
             "citation": ("Herron, M. M. & Langway, C. C. Jr (1980), Journal of Glaciology "
                          "25(93), 373-385, doi:10.3189/S0022143000015239"),
             "density_relation": relation}
-    return _tabulated_profile(z, n, info=info)
+    model.update(info or {})
+    return TabulatedProfile(z, n, n_air=n_air, z_min=z_min, info=model)

@@ -13,6 +13,7 @@ and describe themselves to the ray solver as a :class:`~firnray.medium.panels.Pa
   solved by quadrature.
 """
 
+import hashlib
 import math
 
 import numpy as np
@@ -298,9 +299,10 @@ class TabulatedProfile(_PanelProfile):
         self.info = dict(info or {})
 
     def __repr__(self):
-        return (f"TabulatedProfile({self.z.size} samples from z = 0 to {self.z[-1]!r} m, "
-                f"n = {self.n[0]!r} .. {self.n[-1]!r}, n_air={self.n_air!r}, "
-                f"z_min={self.z_min!r}, digest={hash((self.z.tobytes(), self.n.tobytes()))})")
+        digest = hashlib.sha256(self.z.tobytes() + self.n.tobytes()).hexdigest()[:12]
+        return (f"TabulatedProfile({self.z.size} samples from z = 0 to {float(self.z[-1])!r} m, "
+                f"n = {float(self.n[0])!r} .. {float(self.n[-1])!r}, n_air={self.n_air!r}, "
+                f"z_min={self.z_min!r}, samples sha256 {digest})")
 
 
 #: Default largest deviation of the panel representation from the callable [1].

@@ -27,6 +27,8 @@ import warnings
 import numpy as np
 
 from firnray.errors import FirnrayWarning
+from firnray.medium.general_profiles import PiecewiseExponentialProfile
+from firnray.medium.profiles import ExponentialProfile
 
 #: Parameter names of the exponential model, in the order of the covariance.
 EXPONENTIAL_PARAMETERS = ("n_deep", "n_surface", "scale_depth")
@@ -266,16 +268,12 @@ class IndexFit:
             If the fitted values do not make a valid profile (for example a
             piece whose deep index lies below the index at its top).
         """
-        from firnray.medium import profiles   # imported on use
         p = self.parameters
         if self.kind == "exponential":
-            return profiles.ExponentialProfile(p["n_deep"], p["n_surface"], p["scale_depth"],
-                                               **kw)
-        cls = getattr(profiles, "PiecewiseExponentialProfile", None)
-        if cls is None:   # the general profiles may live in their own module
-            from firnray.medium.general_profiles import PiecewiseExponentialProfile as cls
+            return ExponentialProfile(p["n_deep"], p["n_surface"], p["scale_depth"], **kw)
         n_surface, breaks, n_deep, scale_depth = self._pieces()
-        return cls(n_surface, list(breaks), list(n_deep), list(scale_depth), **kw)
+        return PiecewiseExponentialProfile(n_surface, list(breaks), list(n_deep),
+                                           list(scale_depth), **kw)
 
     def summary(self):
         """Readable multi-line text: the fit statistics, each parameter, the correlations."""
