@@ -163,7 +163,8 @@ class _Steps:
         self.started = time.perf_counter()
         if iterable is not None and self.stream is not None and self._tty():
             from tqdm import tqdm
-            self.bar = tqdm(iterable, desc=label, total=total, file=self.stream, leave=True)
+            self.bar = tqdm(iterable, desc=label, total=total, file=self.stream, leave=True,
+                            unit="fit")
             return self.bar
         if self.stream is not None:
             self.stream.write(f"{label} ...")
