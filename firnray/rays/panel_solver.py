@@ -199,21 +199,34 @@ def extremum(sign, t_a, t_b, t_best, f_best, stop_at, prof, geo, x_target):
 
 @lean_kernel
 def slope_at(mode, t, t_min, t_max, prof, geo):
-    """dX/dt [m/rad] at t by a central difference (one-sided at the ends)."""
-    hstep = 1e-6 * max(abs(t), 1e-3)
-    t1 = max(t - hstep, t_min)
-    t2 = min(t + hstep, t_max)
-    if t2 <= t1:
-        return math.nan
-    return (family_x(mode, t2, prof, geo) - family_x(mode, t1, prof, geo)) / (t2 - t1)
+    """dX/dt [m/rad] at t by Richardson-extrapolated central differences.
+
+    The step is 1e-5 of t (at least 1e-6 rad) but at most 1/20 of the
+    distance to the ends of the branch [t_min, t_max] holding t: next to the
+    grazing ray X grows like a square root of the distance, and there the
+    extrapolation (4 D(h/2) - D(h)) / 3 cancels the leading error term.
+    """
+    dist = min(t - t_min, t_max - t)
+    h = min(1e-5 * max(abs(t), 0.1), 0.05 * dist)
+    if not h > 1e-13:          # at a branch end: one-sided from inside
+        h = 1e-7 * max(abs(t), 0.1)
+        sign = 1.0 if t - t_min < t_max - t else -1.0
+        x0 = family_x(mode, t, prof, geo)
+        return (family_x(mode, t + sign * h, prof, geo) - x0) / (sign * h)
+    d1 = (family_x(mode, t + h, prof, geo) - family_x(mode, t - h, prof, geo)) / (2.0 * h)
+    if h >= 1e-5 * max(abs(t), 0.1):   # far from the branch ends: central difference
+        return d1
+    d2 = (family_x(mode, t + 0.5 * h, prof, geo) - family_x(mode, t - 0.5 * h, prof, geo)) / h
+    return (4.0 * d2 - d1) / 3.0
 
 
 @lean_kernel
-def store_general(out, kinds, conv, i, k, mode, t, ok, swapped, t_max, prof, geo):
-    """Evaluate the ray of family ``mode`` at t and write it to row i, slot k."""
+def store_general(out, kinds, conv, i, k, mode, t, ok, swapped, t_min, t_max, prof, geo):
+    """Evaluate the ray of family ``mode`` at t and write it to row i, slot k; the
+    spreading derivative stays inside the branch [t_min, t_max] holding t."""
     n_hi, z_lo, z_hi, h, n_air, n_s, z_layer = geo
     x, length, c_time, z_top, code = family(mode, t, prof, geo)
-    dx = slope_at(mode, t, 0.0, t_max, prof, geo)
+    dx = slope_at(mode, t, t_min, t_max, prof, geo)
     n_lo = index_at(prof, z_lo)
     if mode == AIR_FAMILY:
         b = n_air * math.sin(t)
@@ -348,7 +361,7 @@ def solve_ice(out, kinds, conv, i, prof, x_target, z_src, z_rcv, scratch):
         if x_target < x_h:
             t, ok = find_root(DIRECT_FAMILY, x_target, 0.0, x_h - x_target, HALF_PI, -x_target,
                               prof, geo)
-            store_general(out, kinds, conv, i, k, DIRECT_FAMILY, t, ok, swapped, HALF_PI, prof,
+            store_general(out, kinds, conv, i, k, DIRECT_FAMILY, t, ok, swapped, 0.0, HALF_PI, prof,
                           geo)
             k += 1
     if z_hi >= 0.0:
@@ -369,13 +382,15 @@ def solve_ice(out, kinds, conv, i, prof, x_target, z_src, z_rcv, scratch):
         fa, fb = fs[j - 1], fs[j]
         if fb == 0.0 or (fa > 0.0 and fb < 0.0) or (fa < 0.0 and fb > 0.0):
             t, ok = find_root(UP_FAMILY, x_target, ts[j - 1], fa, ts[j], fb, prof, geo)
-            store_general(out, kinds, conv, i, k, UP_FAMILY, t, ok, swapped, HALF_PI, prof, geo)
+            store_general(out, kinds, conv, i, k, UP_FAMILY, t, ok, swapped, 0.0, psi_s, prof,
+                          geo)
             k += 1
             n_up += 1
     f_s = fs[m - 1]
     if f_s > 0.0 and n_up < MAX_UP:        # reflected branch: monotone down to -x at pi/2
         t, ok = find_root(UP_FAMILY, x_target, ts[m - 1], f_s, HALF_PI, -x_target, prof, geo)
-        store_general(out, kinds, conv, i, k, UP_FAMILY, t, ok, swapped, HALF_PI, prof, geo)
+        store_general(out, kinds, conv, i, k, UP_FAMILY, t, ok, swapped, psi_s, HALF_PI, prof,
+                      geo)
         k += 1
     return k
 
@@ -389,7 +404,8 @@ def solve_air_ice(out, kinds, conv, i, prof, n_air, x_target, z_src, z_rcv):
     phi_top = math.atan2(x_target, h)
     f_top = family_x(AIR_FAMILY, phi_top, prof, geo) - x_target
     t, ok = find_root(AIR_FAMILY, x_target, 0.0, -x_target, phi_top, f_top, prof, geo)
-    store_general(out, kinds, conv, i, 0, AIR_FAMILY, t, ok, source_in_air, phi_top, prof, geo)
+    store_general(out, kinds, conv, i, 0, AIR_FAMILY, t, ok, source_in_air, 0.0, HALF_PI, prof,
+                  geo)
     return 1
 
 
@@ -408,7 +424,8 @@ def solve_layer(out, kinds, conv, i, k, prof, x_target, z_src, z_rcv, z_layer, l
     if not x_target < x_h:
         return 0
     t, ok = find_root(LAYER_FAMILY, x_target, 0.0, x_h - x_target, HALF_PI, -x_target, prof, geo)
-    store_general(out, kinds, conv, i, k, LAYER_FAMILY, t, ok, swapped, HALF_PI, prof, geo)
+    store_general(out, kinds, conv, i, k, LAYER_FAMILY, t, ok, swapped, 0.0, HALF_PI, prof,
+                  geo)
     out[i, k, es.COL_LAYER] = layer_index
     return 1
 
