@@ -10,8 +10,9 @@ in mpmath from scipy's piecewise-polynomial coefficients) and a smooth
 two-term exponential given as a function (quadrature here).
 
 Tolerances: travel time 1 ps (the issue's target), zenith angles 1e-6 deg,
-invariant 2e-9 (near the shadow edge the invariant is ill-conditioned: an
-error dX in the reach moves it by about sqrt(dX)), path length 1e-5 m,
+invariant 5e-9 (near the shadow edge the invariant is ill-conditioned: an
+error dX in the reach, or the 1e-10 deviation of a function profile's panels,
+moves it by about sqrt(dX)), path length 1e-5 m,
 turning height 1e-4 m; shadow boundary 1e-5 relative.
 
 The case ``pchip-table/multi-ray`` has four rays, three of them within
@@ -58,7 +59,7 @@ def assert_ray_matches(got, want):
     assert got.travel_time == pytest.approx(want["travel_time_ns"], abs=1e-3)
     assert got.launch_zenith == pytest.approx(want["launch_zenith_deg"], abs=1e-6)
     assert got.arrival_zenith == pytest.approx(want["arrival_zenith_deg"], abs=1e-6)
-    assert got.invariant == pytest.approx(want["invariant"], abs=2e-9)
+    assert got.invariant == pytest.approx(want["invariant"], abs=5e-9)
     assert got.path_length == pytest.approx(want["path_length_m"], abs=1e-5)
     if want["turning_z_m"] is None:
         assert got.turning_z is None
