@@ -210,7 +210,10 @@ def _table(path, params, names):
         if not isinstance(rel, str):
             _fail(path, "parameters.csv", f"expected a file path, got {rel!r}")
         csv_path = os.path.join(os.path.dirname(os.fspath(path)), rel)
-        return read_table_csv(csv_path, names)
+        try:
+            return read_table_csv(csv_path, names)
+        except ProfileFileError as err:
+            raise ProfileFileError(f"{path}: key 'parameters.csv': {err}") from None
     for key in names:
         if key not in params:
             _fail(path, f"parameters.{key}", "missing (or give 'csv')")
