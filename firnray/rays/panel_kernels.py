@@ -55,6 +55,11 @@ _x8, _w8 = np.polynomial.legendre.leggauss(8)
 NODES_BULK, WEIGHTS_BULK = _x4.copy(), _w4.copy()
 #: Largest relative change of the integrand's smooth factor across one quadrature part.
 PART_CHANGE = 0.03
+#: Coarse evaluations (scans): 2 nodes per part, larger parts, a looser block series.
+_x2, _w2 = np.polynomial.legendre.leggauss(2)
+NODES_COARSE, WEIGHTS_COARSE = _x2.copy(), _w2.copy()
+COARSE_PART_CHANGE = 0.25
+COARSE_RATIO = 0.3
 #: Rule for the cubic panel at the top of a piece (turning point or near-grazing).
 NODES_TOP, WEIGHTS_TOP = _x8.copy(), _w8.copy()
 
@@ -179,7 +184,7 @@ def exponential_piece(prof, k, b, n_ref, p, z1, z2, to_turning):
 
 
 @lean_kernel
-def cubic_piece(prof, k, b, n_ref, p, z1, z2, z_s, nodes, weights):
+def cubic_piece(prof, k, b, n_ref, p, z1, z2, z_s, nodes, weights, part_change):
     """X [m], L [m], c T [m] of the part z1 -> z2 of a ray in cubic panel k by
     Gauss-Legendre quadrature, in v = sqrt(z_s - z) when z_s is finite.
 
@@ -187,9 +192,9 @@ def cubic_piece(prof, k, b, n_ref, p, z1, z2, z_s, nodes, weights):
     integrand changes little: without the substitution the relative change
     of w^2 across a part, with it the relative change of w^2 / (z_s - z)
     (which the substitution makes constant where w^2 is linear in z), both
-    judged from the ends and the middle of the piece, stays below
-    ``PART_CHANGE``; the error of the fixed rule then stays small whatever the
-    panel length.
+    judged from the ends and the middle of the piece, stay below ``part_change`` (``PART_CHANGE``, or ``COARSE_PART_CHANGE`` for the
+    scans); the error of the fixed rule then stays small whatever the panel
+    length.
     """
     top, bottom, kind, coef, n_top = prof[0], prof[1], prof[2], prof[3], prof[4]
     h = top[k] - bottom[k]
@@ -222,7 +227,7 @@ def cubic_piece(prof, k, b, n_ref, p, z1, z2, z_s, nodes, weights):
     g_lo = min(g1, min(gm, g2))
     g_hi = max(g1, max(gm, g2))
     change = (g_hi - g_lo) / g_lo if g_lo > 0.0 else 1e4
-    parts = 1 + int(min(change, 1e4) / PART_CHANGE)
+    parts = 1 + int(min(change, 1e4) / part_change)
     width = (v2 - v1) / parts
     half = 0.5 * width
     x = 0.0
@@ -246,18 +251,18 @@ def cubic_piece(prof, k, b, n_ref, p, z1, z2, z_s, nodes, weights):
 
 
 @lean_kernel
-def block_series(n_m, u_max, series, b, n_ref, p):
+def block_series(n_m, u_max, series, b, n_ref, p, ratio, cutoff):
     """X [m], L [m], c T [m] over one block by its moment series (``panel_blocks``:
     n_m, u_max and the series coefficients), and whether the series applies
-    (u_max / A <= RATIO).  Terms stop once (u_max / A)^j < 1e-17."""
+    (u_max / A <= ratio).  Terms stop once (u_max / A)^j < cutoff."""
     big_a = (n_m - n_ref) * (n_m + n_ref) + p * p
-    if not big_a > 0.0 or u_max > RATIO * big_a:
+    if not big_a > 0.0 or u_max > ratio * big_a:
         return 0.0, 0.0, 0.0, False
     r = 1.0 / big_a
     rho = u_max * r
     last = 0
     bound = rho
-    while bound >= 1e-17 and last < ORDER:
+    while bound >= cutoff and last < ORDER:
         bound *= rho
         last += 1
     sx = series[0, last]
@@ -272,7 +277,7 @@ def block_series(n_m, u_max, series, b, n_ref, p):
 
 
 @lean_kernel
-def segment(prof, b, n_ref, p, z_a, z_b, to_turning):
+def segment(prof, b, n_ref, p, z_a, z_b, to_turning, coarse=False):
     """X [m], L [m] and c T [m] of the monotone piece of a ray from z_a up to z_b.
 
     Parameters
@@ -287,6 +292,9 @@ def segment(prof, b, n_ref, p, z_a, z_b, to_turning):
         Lower and upper height of the piece, z_a <= z_b <= 0 [m].
     to_turning : bool
         The piece ends at the ray's turning point z_b (n(z_b) = b).
+    coarse : bool, optional
+        A cheaper evaluation, good to about 1e-6 relative, for scans that only
+        place brackets (fewer nodes and parts, a looser series).
 
     Returns
     -------
@@ -296,6 +304,14 @@ def segment(prof, b, n_ref, p, z_a, z_b, to_turning):
     top, bottom, kind, coef, n_top = prof[0], prof[1], prof[2], prof[3], prof[4]
     if not z_b > z_a:
         return 0.0, 0.0, 0.0
+    if coarse:
+        bulk_nodes, bulk_weights = NODES_COARSE, WEIGHTS_COARSE
+        top_nodes, top_weights = NODES_BULK, WEIGHTS_BULK
+        part_change, ratio, cutoff = COARSE_PART_CHANGE, COARSE_RATIO, 1e-9
+    else:
+        bulk_nodes, bulk_weights = NODES_BULK, WEIGHTS_BULK
+        top_nodes, top_weights = NODES_TOP, WEIGHTS_TOP
+        part_change, ratio, cutoff = PART_CHANGE, RATIO, 1e-17
     k_top = find_panel(top, z_b)
     z_s = math.inf
     if to_turning:
@@ -320,13 +336,14 @@ def segment(prof, b, n_ref, p, z_a, z_b, to_turning):
             if (k % COARSE == 0 and last < m and prof[9][k // COARSE] and top[k] <= z_b
                     and bottom[last] >= z_a):
                 dx, dl, dt, used = block_series(prof[10][k // COARSE], prof[11][k // COARSE],
-                                                prof[12][k // COARSE], b, n_ref, p)
+                                                prof[12][k // COARSE], b, n_ref, p, ratio, cutoff)
             if not used:
                 size = BLOCK
                 last = k + BLOCK - 1
                 if last < m and prof[5][k // BLOCK] and top[k] <= z_b and bottom[last] >= z_a:
                     dx, dl, dt, used = block_series(prof[6][k // BLOCK], prof[7][k // BLOCK],
-                                                    prof[8][k // BLOCK], b, n_ref, p)
+                                                    prof[8][k // BLOCK], b, n_ref, p, ratio,
+                                                    cutoff)
             if used:
                 x += dx
                 ln += dl
@@ -344,11 +361,11 @@ def segment(prof, b, n_ref, p, z_a, z_b, to_turning):
                                                to_turning and k == k_top)
             elif kd == CUBIC:
                 if k == k_top:
-                    dx, dl, dt = cubic_piece(prof, k, b, n_ref, p, z1, z2, z_s, NODES_TOP,
-                                             WEIGHTS_TOP)
+                    dx, dl, dt = cubic_piece(prof, k, b, n_ref, p, z1, z2, z_s, top_nodes,
+                                             top_weights, part_change)
                 else:
-                    dx, dl, dt = cubic_piece(prof, k, b, n_ref, p, z1, z2, z_s, NODES_BULK,
-                                             WEIGHTS_BULK)
+                    dx, dl, dt = cubic_piece(prof, k, b, n_ref, p, z1, z2, z_s, bulk_nodes,
+                                             bulk_weights, part_change)
             else:
                 n = coef[k, 0]
                 w = slowness(n, n_ref, p)

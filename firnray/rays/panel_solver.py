@@ -51,42 +51,49 @@ DIRECT_FAMILY, UP_FAMILY, AIR_FAMILY, LAYER_FAMILY = 0, 1, 2, 3
 
 
 @lean_kernel
-def family(mode, t, prof, geo):
+def family(mode, t, prof, geo, coarse=False):
     """X [m], L [m], c T [m], top height [m] and kind code of family ``mode`` at t [rad].
 
     ``geo`` = (n_hi, z_lo, z_hi, h, n_air, n_s, z_layer): index at z_hi, the
     two heights, for the transmitted family the height h of the air point
     and the indices of air and surface, for the layer family the reflector.
+    With ``coarse`` the integrals are the cheaper ones of the scans.
     """
     n_hi, z_lo, z_hi, h, n_air, n_s, z_layer = geo
     if mode == AIR_FAMILY:
         b = n_air * math.sin(t)
         p = math.sqrt(max((n_s - b) * (n_s + b), 0.0))
-        x, ln, ct = segment(prof, b, n_s, p, z_lo, 0.0, False)
+        x, ln, ct = segment(prof, b, n_s, p, z_lo, 0.0, False, coarse)
         air = h / math.cos(t)
         return x + h * math.tan(t), ln + air, ct + n_air * air, 0.0, es.TRANSMITTED
     b = n_hi * math.cos(t)
     p = n_hi * math.sin(t)
     if mode == LAYER_FAMILY:
-        x1, l1, t1 = segment(prof, b, n_hi, p, z_layer, z_hi, False)
-        x2, l2, t2 = segment(prof, b, n_hi, p, z_layer, z_lo, False)
+        x1, l1, t1 = segment(prof, b, n_hi, p, z_layer, z_hi, False, coarse)
+        x2, l2, t2 = segment(prof, b, n_hi, p, z_layer, z_lo, False, coarse)
         return x1 + x2, l1 + l2, t1 + t2, z_layer, es.LAYER_REFLECTED
-    x1, l1, t1 = segment(prof, b, n_hi, p, z_lo, z_hi, False)
+    x1, l1, t1 = segment(prof, b, n_hi, p, z_lo, z_hi, False, coarse)
     if mode == DIRECT_FAMILY:
         return x1, l1, t1, z_hi, es.DIRECT
     k_t, z_t = turning_point(prof, b)
     if k_t < 0:
-        x2, l2, t2 = segment(prof, b, n_hi, p, z_hi, 0.0, False)
+        x2, l2, t2 = segment(prof, b, n_hi, p, z_hi, 0.0, False, coarse)
         return x1 + 2.0 * x2, l1 + 2.0 * l2, t1 + 2.0 * t2, 0.0, es.REFLECTED
     z_t = max(z_t, z_hi)
-    x2, l2, t2 = segment(prof, b, n_hi, p, z_hi, z_t, True)
+    x2, l2, t2 = segment(prof, b, n_hi, p, z_hi, z_t, True, coarse)
     return x1 + 2.0 * x2, l1 + 2.0 * l2, t1 + 2.0 * t2, z_t, es.REFRACTED
 
 
 @lean_kernel
 def family_x(mode, t, prof, geo):
     """Horizontal distance X(t) [m] of family ``mode``."""
-    return family(mode, t, prof, geo)[0]
+    return family(mode, t, prof, geo, False)[0]
+
+
+@lean_kernel
+def family_x_coarse(mode, t, prof, geo):
+    """X(t) [m] of family ``mode`` by the cheaper integrals (about 1e-6 relative)."""
+    return family(mode, t, prof, geo, True)[0]
 
 
 @lean_kernel
@@ -281,7 +288,7 @@ def scan_point(j, psi_s):
 
 
 @lean_kernel
-def up_family_scan(prof, geo, x_target, x_h, psi_s, ts, fs, extra_t, extra_f):
+def up_family_scan(prof, geo, x_target, x_h, psi_s, ts, fs, extra_t, extra_f, exact):
     """Scan of the refracted branch, refined at extrema; fills ts, fs (length >=
     2 SCAN + 2) and returns the number of points, in increasing t.
 
@@ -292,9 +299,11 @@ def up_family_scan(prof, geo, x_target, x_h, psi_s, ts, fs, extra_t, extra_f):
     """
     ts[0] = 0.0
     fs[0] = x_h - x_target
+    exact[0] = 1.0
     for j in range(1, SCAN + 1):
         ts[j] = scan_point(j, psi_s)
-        fs[j] = family_x(UP_FAMILY, ts[j], prof, geo) - x_target
+        fs[j] = family_x_coarse(UP_FAMILY, ts[j], prof, geo) - x_target
+        exact[j] = 0.0
     m = SCAN + 1
     n_extra = 0
     for j in range(SCAN + 1):
@@ -302,6 +311,8 @@ def up_family_scan(prof, geo, x_target, x_h, psi_s, ts, fs, extra_t, extra_f):
         f0 = fs[j - 1] if j > 0 else -math.inf
         f2 = fs[j + 1] if j < SCAN else -math.inf
         if f1 >= f0 and f1 >= f2 and f1 < 0.0:          # a maximum below the target
+            make_exact(j, ts, fs, exact, prof, geo, x_target)
+            f1 = fs[j]
             t_a = ts[j - 1] if j > 0 else ts[0]
             t_b = ts[j + 1] if j < SCAN else ts[SCAN]
             if j == 0 or j == SCAN:                     # the peak may lie inside the end interval
@@ -311,6 +322,8 @@ def up_family_scan(prof, geo, x_target, x_h, psi_s, ts, fs, extra_t, extra_f):
                 t0, f_start = ts[j], f1
             t_e, f_e = extremum(1, t_a, t_b, t0, f_start, 0.0, prof, geo, x_target)
         elif 0 < j < SCAN and f1 <= f0 and f1 <= f2 and f1 > 0.0 and math.isfinite(f0):
+            make_exact(j, ts, fs, exact, prof, geo, x_target)
+            f1 = fs[j]
             t_e, f_e = extremum(-1, ts[j - 1], ts[j + 1], ts[j], f1, 0.0, prof, geo, x_target)
         else:
             continue
@@ -319,23 +332,33 @@ def up_family_scan(prof, geo, x_target, x_h, psi_s, ts, fs, extra_t, extra_f):
             extra_f[n_extra] = f_e
             n_extra += 1
     for j in range(n_extra):
-        m = insert_point(ts, fs, m, extra_t[j], extra_f[j])
+        m = insert_point(ts, fs, exact, m, extra_t[j], extra_f[j])
     return m
 
 
 @lean_kernel
-def insert_point(ts, fs, m, t, f):
-    """Insert (t, f) into the sorted scan of m points; returns m + 1."""
+def insert_point(ts, fs, exact, m, t, f):
+    """Insert the exact point (t, f) into the sorted scan of m points; returns m + 1."""
     if m >= ts.shape[0]:
         return m
     j = m
     while j > 0 and ts[j - 1] > t:
         ts[j] = ts[j - 1]
         fs[j] = fs[j - 1]
+        exact[j] = exact[j - 1]
         j -= 1
     ts[j] = t
     fs[j] = f
+    exact[j] = 1.0
     return m + 1
+
+
+@lean_kernel
+def make_exact(j, ts, fs, exact, prof, geo, x_target):
+    """Replace a coarse scan value by the exact one."""
+    if exact[j] == 0.0:
+        fs[j] = family_x(UP_FAMILY, ts[j], prof, geo) - x_target
+        exact[j] = 1.0
 
 
 @lean_kernel
@@ -367,12 +390,12 @@ def solve_ice(out, kinds, conv, i, prof, x_target, z_src, z_rcv, scratch):
     if z_hi >= 0.0:
         return k
     psi_s = math.atan2(math.sqrt(max((n_hi - n_s) * (n_hi + n_s), 0.0)), n_s)
-    ts, fs, extra_t, extra_f = scratch[0], scratch[1], scratch[2], scratch[3]
+    ts, fs, extra_t, extra_f, exact = scratch[0], scratch[1], scratch[2], scratch[3], scratch[4]
     m = 1
     ts[0] = 0.0
     fs[0] = x_h - x_target
     if psi_s > 0.0:
-        m = up_family_scan(prof, geo, x_target, x_h, psi_s, ts, fs, extra_t, extra_f)
+        m = up_family_scan(prof, geo, x_target, x_h, psi_s, ts, fs, extra_t, extra_f, exact)
     else:
         fs[0] = family_x(UP_FAMILY, 0.0, prof, geo) - x_target
     n_up = 0
@@ -381,11 +404,18 @@ def solve_ice(out, kinds, conv, i, prof, x_target, z_src, z_rcv, scratch):
             break
         fa, fb = fs[j - 1], fs[j]
         if fb == 0.0 or (fa > 0.0 and fb < 0.0) or (fa < 0.0 and fb > 0.0):
+            # a crossing in the coarse scan: confirm it with exact values at both ends
+            make_exact(j - 1, ts, fs, exact, prof, geo, x_target)
+            make_exact(j, ts, fs, exact, prof, geo, x_target)
+            fa, fb = fs[j - 1], fs[j]
+        if fb == 0.0 or (fa > 0.0 and fb < 0.0) or (fa < 0.0 and fb > 0.0):
             t, ok = find_root(UP_FAMILY, x_target, ts[j - 1], fa, ts[j], fb, prof, geo)
             store_general(out, kinds, conv, i, k, UP_FAMILY, t, ok, swapped, 0.0, psi_s, prof,
                           geo)
             k += 1
             n_up += 1
+    if psi_s > 0.0:
+        make_exact(m - 1, ts, fs, exact, prof, geo, x_target)
     f_s = fs[m - 1]
     if f_s > 0.0 and n_up < MAX_UP:        # reflected branch: monotone down to -x at pi/2
         t, ok = find_root(UP_FAMILY, x_target, ts[m - 1], f_s, HALF_PI, -x_target, prof, geo)
@@ -480,7 +510,7 @@ def solve_pairs(prof, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, c
     n = x_target.shape[0]
     n_chunks = (n + CHUNK - 1) // CHUNK
     for c in numba.prange(n_chunks):
-        scratch = np.empty((4, 2 * SCAN + 4))
+        scratch = np.empty((5, 2 * SCAN + 4))
         for i in range(c * CHUNK, min(n, (c + 1) * CHUNK)):
             solve_row(i, prof, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, count,
                       scratch)
@@ -489,7 +519,7 @@ def solve_pairs(prof, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, c
 @numba.njit(**KERNEL_OPTIONS)
 def solve_pairs_serial(prof, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, count):
     """:func:`solve_pairs` on the calling thread."""
-    scratch = np.empty((4, 2 * SCAN + 4))
+    scratch = np.empty((5, 2 * SCAN + 4))
     for i in range(x_target.shape[0]):
         solve_row(i, prof, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, count,
                   scratch)
