@@ -286,3 +286,33 @@ def test_layer_reflection_in_a_table_matches_image_in_uniform_ice():
     n = tab.index(-300.0)
     length = math.hypot(400.0, (-300.0 + 900.0) + (-500.0 + 900.0))
     assert bounce.travel_time == pytest.approx(n * length / 0.299792458, abs=1e-6)
+
+
+def test_denser_scan_finds_clustered_rays_of_a_noisy_table():
+    """The invented density core has scatter, so its up-going family has many small
+    extrema and clusters of rays.  A denser scan finds more of them: more rays in
+    all, every pair the default scan lights is lit, and every ray it reports
+    is a ray (a scipy ray shot from the source with its invariant lands on the
+    receiver within 1 mm)."""
+    core = firnray.load_profile("tallow-dome-core")
+    rng = np.random.default_rng(21)
+    n = 3000
+    src = np.column_stack([np.zeros(n), -rng.uniform(0.0, 2000.0, n)])
+    rcv = np.column_stack([rng.uniform(0.0, 3000.0, n), -rng.uniform(0.0, 200.0, n)])
+    coarse = firnray.find_rays_many(core, src, rcv)
+    dense = firnray.find_rays_many(core, src, rcv, scan_points=40)
+    assert dense.count.sum() > coarse.count.sum()
+    assert np.all(dense.count[coarse.count > 0] > 0)
+    assert np.all(dense.converged[dense.kind >= 0])
+    index = _pchip_index(core)
+    extra = np.flatnonzero(dense.count > coarse.count)[:3]
+    assert extra.size
+    for i in extra:
+        for ray in dense[i]:
+            if ray.kind == "reflected" and core.n_surface - ray.invariant < 1e-3:
+                continue
+            landed = shoot(index, src[i, 1], ray.invariant, ray.launch_zenith < 90.0,
+                           rcv[i, 0], bounce=True, max_step=5.0)
+            assert landed is not None and landed[0] == pytest.approx(rcv[i, 1], abs=1e-3)
+    with pytest.raises(ValueError, match="scan_points"):
+        firnray.find_rays_many(core, src[:2], rcv[:2], scan_points=2)

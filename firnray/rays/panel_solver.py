@@ -12,7 +12,8 @@ at z_hi gives b = n_hi cos(psi), p = n_hi sin(psi), and
 
 Unlike the single exponential, a general profile (a kink in dn/dz at a break,
 a measured table) need not give the refracted branch a single maximum.  It is
-therefore scanned at ``SCAN`` values of psi crowding towards psi_s; every
+therefore scanned at ``SCAN`` values of psi (by default; ``scan_points`` of
+``find_rays_many``) crowding towards both ends; every
 sampled local maximum below the target distance (and minimum above it) is
 refined by Brent's golden-section/parabolic search, and a sign change of
 X - x_target between neighbouring points of the refined scan is a root.  Each
@@ -38,6 +39,7 @@ from firnray.rays.panel_kernels import (UNIFORM, find_panel, index_at, lean_kern
 
 HALF_PI = 0.5 * math.pi
 #: Number of scan intervals of the refracted branch of the up-going family.
+#: Default number of scan intervals of the refracted branch.
 SCAN = 10
 #: Most up-going rays kept per pair (the direct ray comes on top).
 MAX_UP = 5
@@ -280,48 +282,49 @@ def horizontal_straight(out, kinds, conv, i, k, n, x_target):
 
 
 @lean_kernel
-def scan_point(j, psi_s):
+def scan_point(j, psi_s, n_scan):
     """Scan point j of the refracted branch [rad]: Chebyshev spacing on [0, psi_s],
     dense at both ends (the largest reach lies near 0 for deep pairs and near
     the grazing ray psi_s for shallow ones)."""
-    return 0.5 * psi_s * (1.0 - math.cos(math.pi * j / SCAN))
+    return 0.5 * psi_s * (1.0 - math.cos(math.pi * j / n_scan))
 
 
 @lean_kernel
 def up_family_scan(prof, geo, x_target, x_h, psi_s, ts, fs, extra_t, extra_f, exact):
     """Scan of the refracted branch, refined at extrema; fills ts, fs (length >=
-    2 SCAN + 2) and returns the number of points, in increasing t.
+    2 n_scan + 2) and returns the number of points, in increasing t.
 
     A sampled maximum below the target (the last sample included: the
     largest reach may lie just before the grazing ray) and a sampled minimum
     above it are refined; the refined extremum joins the scan, so that a
     crossing hidden between two samples shows as a sign change.
     """
+    n_scan = (ts.shape[0] - 4) // 2        # scan intervals: the scratch rows hold 2 n_scan + 4
     ts[0] = 0.0
     fs[0] = x_h - x_target
     exact[0] = 1.0
-    for j in range(1, SCAN + 1):
-        ts[j] = scan_point(j, psi_s)
+    for j in range(1, n_scan + 1):
+        ts[j] = scan_point(j, psi_s, n_scan)
         fs[j] = family_x_coarse(UP_FAMILY, ts[j], prof, geo) - x_target
         exact[j] = 0.0
-    m = SCAN + 1
+    m = n_scan + 1
     n_extra = 0
-    for j in range(SCAN + 1):
+    for j in range(n_scan + 1):
         f1 = fs[j]
         f0 = fs[j - 1] if j > 0 else -math.inf
-        f2 = fs[j + 1] if j < SCAN else -math.inf
+        f2 = fs[j + 1] if j < n_scan else -math.inf
         if f1 >= f0 and f1 >= f2 and f1 < 0.0:          # a maximum below the target
             make_exact(j, ts, fs, exact, prof, geo, x_target)
             f1 = fs[j]
             t_a = ts[j - 1] if j > 0 else ts[0]
-            t_b = ts[j + 1] if j < SCAN else ts[SCAN]
-            if j == 0 or j == SCAN:                     # the peak may lie inside the end interval
-                t0 = 0.5 * (ts[0] + ts[1]) if j == 0 else 0.5 * (ts[SCAN - 1] + ts[SCAN])
+            t_b = ts[j + 1] if j < n_scan else ts[n_scan]
+            if j == 0 or j == n_scan:                     # the peak may lie inside the end interval
+                t0 = 0.5 * (ts[0] + ts[1]) if j == 0 else 0.5 * (ts[n_scan - 1] + ts[n_scan])
                 f_start = family_x(UP_FAMILY, t0, prof, geo) - x_target
             else:
                 t0, f_start = ts[j], f1
             t_e, f_e = extremum(1, t_a, t_b, t0, f_start, 0.0, prof, geo, x_target)
-        elif 0 < j < SCAN and f1 <= f0 and f1 <= f2 and f1 > 0.0 and math.isfinite(f0):
+        elif 0 < j < n_scan and f1 <= f0 and f1 <= f2 and f1 > 0.0 and math.isfinite(f0):
             make_exact(j, ts, fs, exact, prof, geo, x_target)
             f1 = fs[j]
             t_e, f_e = extremum(-1, ts[j - 1], ts[j + 1], ts[j], f1, 0.0, prof, geo, x_target)
@@ -503,23 +506,24 @@ CHUNK = 64
 
 
 @numba.njit(parallel=True, **KERNEL_OPTIONS)
-def solve_pairs(prof, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, count):
+def solve_pairs(prof, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, count, n_scan):
     """Solve every pair in parallel (arguments as ``exponential_solver.solve_pairs``,
     with the arrays of ``panel_blocks.solver_arrays`` in place of the exponential
-    parameters)."""
+    parameters, and ``n_scan`` scan intervals of the refracted branch)."""
     n = x_target.shape[0]
     n_chunks = (n + CHUNK - 1) // CHUNK
     for c in numba.prange(n_chunks):
-        scratch = np.empty((5, 2 * SCAN + 4))
+        scratch = np.empty((5, 2 * n_scan + 4))
         for i in range(c * CHUNK, min(n, (c + 1) * CHUNK)):
             solve_row(i, prof, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, count,
                       scratch)
 
 
 @numba.njit(**KERNEL_OPTIONS)
-def solve_pairs_serial(prof, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, count):
+def solve_pairs_serial(prof, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, count,
+                       n_scan):
     """:func:`solve_pairs` on the calling thread."""
-    scratch = np.empty((5, 2 * SCAN + 4))
+    scratch = np.empty((5, 2 * n_scan + 4))
     for i in range(x_target.shape[0]):
         solve_row(i, prof, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, count,
                   scratch)
@@ -545,19 +549,20 @@ def max_reach(prof, z_lo, z_hi, scratch):
     if psi_s <= 0.0:
         return best
     ts, xs = scratch[0], scratch[1]
+    n_scan = ts.shape[0] - 1               # scan intervals: the scratch rows hold n_scan + 1
     ts[0] = 0.0
     xs[0] = x_h
-    for j in range(1, SCAN + 1):
-        ts[j] = scan_point(j, psi_s)
+    for j in range(1, n_scan + 1):
+        ts[j] = scan_point(j, psi_s, n_scan)
         xs[j] = family_x(UP_FAMILY, ts[j], prof, geo)
-    for j in range(SCAN + 1):
+    for j in range(n_scan + 1):
         left = xs[j - 1] if j > 0 else -math.inf
-        right = xs[j + 1] if j < SCAN else -math.inf
+        right = xs[j + 1] if j < n_scan else -math.inf
         if xs[j] >= left and xs[j] >= right:
             t_a = ts[max(j - 1, 0)]
-            t_b = ts[min(j + 1, SCAN)]
-            if j == 0 or j == SCAN:
-                t0 = 0.5 * (ts[0] + ts[1]) if j == 0 else 0.5 * (ts[SCAN - 1] + ts[SCAN])
+            t_b = ts[min(j + 1, n_scan)]
+            if j == 0 or j == n_scan:
+                t0 = 0.5 * (ts[0] + ts[1]) if j == 0 else 0.5 * (ts[n_scan - 1] + ts[n_scan])
                 f0 = family_x(UP_FAMILY, t0, prof, geo)
             else:
                 t0, f0 = ts[j], xs[j]
@@ -567,11 +572,12 @@ def max_reach(prof, z_lo, z_hi, scratch):
 
 
 @numba.njit(parallel=True, **KERNEL_OPTIONS)
-def max_reach_many(prof, antenna_z, source_z, out):
-    """:func:`max_reach` for an antenna height and many source heights (NaN -> NaN)."""
+def max_reach_many(prof, antenna_z, source_z, out, n_scan):
+    """:func:`max_reach` for an antenna height and many source heights (NaN -> NaN),
+    with ``n_scan`` scan intervals."""
     n = source_z.shape[0]
     for c in numba.prange((n + CHUNK - 1) // CHUNK):
-        scratch = np.empty((2, SCAN + 1))
+        scratch = np.empty((2, n_scan + 1))
         for i in range(c * CHUNK, min(n, (c + 1) * CHUNK)):
             z = source_z[i]
             if not math.isfinite(z):

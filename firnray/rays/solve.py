@@ -48,6 +48,16 @@ def _check_workers(workers):
     return int(workers)
 
 
+def check_scan_points(scan_points):
+    """``scan_points`` as an int from 4 to 1000, or None (the default)."""
+    if scan_points is None:
+        return None
+    if (not isinstance(scan_points, (int, np.integer)) or isinstance(scan_points, bool)
+            or not 4 <= scan_points <= 1000):
+        raise ValueError(f"scan_points must be an integer from 4 to 1000, got {scan_points!r}")
+    return int(scan_points)
+
+
 def _layers(reflectors):
     if reflectors is None:
         return [], es.NO_LAYERS
@@ -58,7 +68,7 @@ def _layers(reflectors):
     return items, np.array([r.z for r in items], dtype=float)
 
 
-def run_solver(profile, x, zs, zr, layers=es.NO_LAYERS, n_threads=None):
+def run_solver(profile, x, zs, zr, layers=es.NO_LAYERS, n_threads=None, scan_points=None):
     """Run the compiled solver that suits ``profile`` on flat arrays.
 
     Parameters
@@ -72,6 +82,9 @@ def run_solver(profile, x, zs, zr, layers=es.NO_LAYERS, n_threads=None):
     n_threads : int, optional
         Threads to use (default: all numba may use); batches below
         ``SERIAL_BELOW`` run on the calling thread.
+    scan_points : int, optional
+        Scan intervals of the refracted branch for a general profile
+        (default ``panel_solver.SCAN``).
 
     Returns
     -------
@@ -90,16 +103,18 @@ def run_solver(profile, x, zs, zr, layers=es.NO_LAYERS, n_threads=None):
         table, kinds, conv, count = ps.allocate(x.shape[0], len(layers))
         args = (solver_arrays(profile.panels), profile.n_air)
         solver = ps.solve_pairs_serial if serial else ps.solve_pairs
+        n_scan = ps.SCAN if scan_points is None else scan_points
     x = np.ascontiguousarray(x, dtype=float)
     zs = np.ascontiguousarray(zs, dtype=float)
     zr = np.ascontiguousarray(zr, dtype=float)
+    extra = () if isinstance(profile, ExponentialProfile) else (n_scan,)
     if serial:
-        solver(*args, x, zs, zr, layers, table, kinds, conv, count)
+        solver(*args, x, zs, zr, layers, table, kinds, conv, count, *extra)
     else:
         previous = numba.get_num_threads()
         numba.set_num_threads(n_threads)
         try:
-            solver(*args, x, zs, zr, layers, table, kinds, conv, count)
+            solver(*args, x, zs, zr, layers, table, kinds, conv, count, *extra)
         finally:
             numba.set_num_threads(previous)
     if not isinstance(profile, ExponentialProfile):
@@ -108,7 +123,7 @@ def run_solver(profile, x, zs, zr, layers=es.NO_LAYERS, n_threads=None):
     return table, kinds, conv, count
 
 
-def solve_arrays(profile, sources, receivers, workers=None, reflectors=None):
+def solve_arrays(profile, sources, receivers, workers=None, reflectors=None, scan_points=None):
     """Run the solver on (N, 3) arrays of sources and receivers; returns a RaySet.
 
     Rows with a NaN, coincident points or a point below the profile's valid
@@ -130,14 +145,16 @@ def solve_arrays(profile, sources, receivers, workers=None, reflectors=None):
     items, layers = _layers(reflectors)
     if np.any(layers < profile.z_min):
         raise ValueError(f"reflectors lie below the profile's valid range (z >= {profile.z_min} m)")
-    table, kinds, conv, count = run_solver(profile, x, zs, zr, layers, n_threads)
+    table, kinds, conv, count = run_solver(profile, x, zs, zr, layers, n_threads,
+                                           check_scan_points(scan_points))
     if not np.all(conv | (kinds < 0)):
         warnings.warn("the root finder did not meet its tolerance for some rays; "
                       "see RaySet.converged", FirnrayWarning, stacklevel=3)
     return RaySet(profile, sources, receivers, table, kinds, conv, count, items)
 
 
-def find_rays_many(profile, sources, receivers, workers=None, reflectors=None):
+def find_rays_many(profile, sources, receivers, workers=None, reflectors=None,
+                   scan_points=None):
     """Every ray for each of N source-receiver pairs.
 
     Parameters
@@ -153,6 +170,12 @@ def find_rays_many(profile, sources, receivers, workers=None, reflectors=None):
         Horizontal reflecting layers; each pair in the ice above a layer also
         gets the ray that bounces off it once (kind "layer-reflected").  Off
         by default.
+    scan_points : int, optional
+        General profiles only: the number of intervals (4 to 1000, default
+        10) at which the refracted branch of the up-going family is scanned
+        for extra extrema (``docs/theory.md`` section 11.4).  A measured table
+        with scatter can give clusters of extra rays that only a denser scan
+        resolves.
 
     Returns
     -------
@@ -177,10 +200,10 @@ def find_rays_many(profile, sources, receivers, workers=None, reflectors=None):
             raise ValueError(f"sources and receivers must have the same number of rows or "
                              f"one of them a single point; got {src.shape[0]} and "
                              f"{rcv.shape[0]}")
-    return solve_arrays(profile, src, rcv, workers, reflectors)
+    return solve_arrays(profile, src, rcv, workers, reflectors, scan_points)
 
 
-def find_rays(profile, source, receiver, reflectors=None):
+def find_rays(profile, source, receiver, reflectors=None, scan_points=None):
     """Every ray from ``source`` to ``receiver``, sorted by travel time.
 
     Parameters
@@ -191,6 +214,8 @@ def find_rays(profile, source, receiver, reflectors=None):
         Points (x, z) or (x, y, z) [m]; z is height (negative in the ice).
     reflectors : sequence of Reflector, optional
         Horizontal reflecting layers (see :func:`find_rays_many`).
+    scan_points : int, optional
+        Scan resolution for general profiles (see :func:`find_rays_many`).
 
     Returns
     -------
@@ -211,4 +236,4 @@ def find_rays(profile, source, receiver, reflectors=None):
     profile.check_height("source", src[2])
     profile.check_height("receiver", rcv[2])
     return solve_arrays(profile, src[None, :], rcv[None, :], workers=1,
-                        reflectors=reflectors)[0]
+                        reflectors=reflectors, scan_points=scan_points)[0]

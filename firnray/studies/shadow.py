@@ -21,7 +21,7 @@ from firnray.rays import exponential_solver as es
 from firnray.medium.profiles import ExponentialProfile
 from firnray.rays import panel_solver as ps
 from firnray.rays.panel_blocks import solver_arrays
-from firnray.rays.solve import check_profile
+from firnray.rays.solve import check_profile, check_scan_points
 
 
 @ek.kernel
@@ -46,7 +46,7 @@ def boundary_many(a, delta, s, antenna_z, source_z, out):
         out[i] = boundary_one(a, delta, s, antenna_z, z) if math.isfinite(z) else math.nan
 
 
-def shadow_boundary(profile, antenna_z, source_z):
+def shadow_boundary(profile, antenna_z, source_z, scan_points=None):
     """Largest horizontal distance at which any ray connects source and antenna.
 
     Parameters
@@ -57,6 +57,9 @@ def shadow_boundary(profile, antenna_z, source_z):
         Antenna height [m] (negative in the ice).
     source_z : float or array_like
         Source heights [m].
+    scan_points : int, optional
+        General profiles only: scan intervals of the up-going family (see
+        ``find_rays_many``).
 
     Returns
     -------
@@ -78,7 +81,9 @@ def shadow_boundary(profile, antenna_z, source_z):
         a, delta, s, _ = profile.parameters
         boundary_many(a, delta, s, antenna_z, flat, out)
     else:
-        ps.max_reach_many(solver_arrays(profile.panels), antenna_z, flat, out)
+        n_scan = check_scan_points(scan_points)
+        ps.max_reach_many(solver_arrays(profile.panels), antenna_z, flat, out,
+                          ps.SCAN if n_scan is None else n_scan)
     out = out.reshape(z.shape)
     return float(out) if out.ndim == 0 else out
 
