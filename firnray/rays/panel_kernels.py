@@ -32,8 +32,8 @@ import math
 import numba
 import numpy as np
 
-from firnray.rays.panel_blocks import BLOCK, COARSE, ORDER, RATIO
-from firnray.rays.exponential_kernels import (KERNEL_OPTIONS, segment_d, segment_extras, turning_d,
+from firnray.rays.panel_blocks import ORDER, RATIO
+from firnray.rays.exponential_kernels import (KERNEL_OPTIONS, segment_d, slope_factor, segment_extras, turning_d,
                                               turning_extras)
 
 EXPONENTIAL, CUBIC, UNIFORM = 0, 1, 2
@@ -59,7 +59,7 @@ PART_CHANGE = 0.03
 _x2, _w2 = np.polynomial.legendre.leggauss(2)
 NODES_COARSE, WEIGHTS_COARSE = _x2.copy(), _w2.copy()
 COARSE_PART_CHANGE = 0.25
-COARSE_RATIO = 0.3
+COARSE_RATIO = 0.5
 #: Rule for the cubic panel at the top of a piece (turning point or near-grazing).
 NODES_TOP, WEIGHTS_TOP = _x8.copy(), _w8.copy()
 
@@ -158,35 +158,61 @@ def slowness(n, n_ref, p):
 
 @lean_kernel
 def exponential_piece(prof, k, b, n_ref, p, z1, z2, to_turning):
-    """Closed-form X [m], L [m], c T [m] of the part z1 -> z2 of a ray in exponential
-    panel k (``exponential_kernels``, equations 2.4-2.8 of the theory); with
-    ``to_turning`` the part ends at the turning point."""
+    """Closed-form X [m], L [m], c T [m] and dX/db [m] of the part z1 -> z2 of a ray
+    in exponential panel k (``exponential_kernels``, equations 2.4-2.10 of the
+    theory); with ``to_turning`` the part ends at the turning point.
+
+    dX/db = a^2 D / q^3 + (b / q) dD/db with dD/db = (s b / q)(k_2 / w_2 - k_1 / w_1),
+    or -(s b / q) k_1 / w_1 - s / b for a part ending at its turning point
+    (k = 2 + (a - n)^2 / G, ``exponential_kernels.slope_factor``).
+    """
     top, bottom, kind, coef, n_top = prof[0], prof[1], prof[2], prof[3], prof[4]
     a, s, d = coef[k, 0], coef[k, 1], coef[k, 3]
     q = math.sqrt((a - b) * (a + b))
     e1 = d * math.exp((z1 - top[k]) / s)
     n1 = a - e1
     w1 = slowness(n1, n_ref, p)
+    g1 = n1 * e1 + w1 * w1 + q * w1
+    k1 = slope_factor(1.0, e1, g1)
     if to_turning:
         dd = turning_d(s, 1.0, b, q, e1, n1, w1)
         ln_h, dw = turning_extras(b, n1, w1)
+        dd_db = -(s * b / q) * k1 / w1 - s / b if w1 > 0.0 else -math.inf
     else:
         e2 = d * math.exp((z2 - top[k]) / s)
         n2 = a - e2
         w2 = slowness(n2, n_ref, p)
-        g1 = n1 * e1 + w1 * w1 + q * w1
         g2 = n2 * e2 + w2 * w2 + q * w2
         dn = -e1 * math.expm1((z2 - z1) / s)
         dd = segment_d(a, s, q, z2 - z1, dn, n1, w1, g1, n2, w2, g2)
         ln_h, dw = segment_extras(dn, n1, w1, n2, w2)
+        k2 = slope_factor(1.0, e2, g2)
+        if w1 > 0.0 and w2 > 0.0:
+            dd_db = (s * b / q) * (k2 / w2 - k1 / w1)
+        else:
+            dd_db = math.inf
     x = b * dd / q
-    return x, s * ln_h + a * dd / q, s * dw + a * s * ln_h + q * dd + b * x
+    dx_db = a * a * dd / (q * q * q) + (b / q) * dd_db
+    return x, s * ln_h + a * dd / q, s * dw + a * s * ln_h + q * dd + b * x, dx_db
 
 
 @lean_kernel
-def cubic_piece(prof, k, b, n_ref, p, z1, z2, z_s, nodes, weights, part_change):
-    """X [m], L [m], c T [m] of the part z1 -> z2 of a ray in cubic panel k by
-    Gauss-Legendre quadrature, in v = sqrt(z_s - z) when z_s is finite.
+def cubic_piece(prof, k, b, n_ref, p, z1, z2, z_s, nodes, weights, part_change, to_turning):
+    """X [m], L [m], c T [m] and dX/db [m] of the part z1 -> z2 of a ray in cubic
+    panel k by Gauss-Legendre quadrature, in v = sqrt(z_s - z) when z_s is finite.
+
+    dX/db: far from z_s the integral of n^2 / w^3; near z_s (w^2 changes by more
+    than a quarter across the piece), where that integrand is too singular,
+    its integration by parts with
+    F = n^2, F' = dF/dz, G = -1/F' (``docs/theory.md`` section 11.5)::
+
+        dX/db = X / b + 2 b^2 (G_2 / w_2 - G_1 / w_1) - 2 b^2 int (F'' / F'^2) / w dz
+
+    whose integrand has the 1/w singularity the substitution removes; the
+    term at z_2 drops when the part ends at its turning point (``to_turning``).
+    Where dF/dz nearly vanishes in such a panel (it changes more than 50-fold
+    across it) the derivative is NaN and the solver falls back to secant steps
+    and finite differences.
 
     The piece is cut into equal parts (in v, or in z) so that on each the
     integrand changes little: without the substitution the relative change
@@ -227,12 +253,32 @@ def cubic_piece(prof, k, b, n_ref, p, z1, z2, z_s, nodes, weights, part_change):
     g_lo = min(g1, min(gm, g2))
     g_hi = max(g1, max(gm, g2))
     change = (g_hi - g_lo) / g_lo if g_lo > 0.0 else 1e4
+    # integrate dX/db by parts only where n^2 / w^3 is too singular to integrate
+    # directly: where w^2 changes by more than a quarter across the piece (far from
+    # the singularity the direct integral is better conditioned)
+    w_small = min(w1, w2)
+    by_parts = sub and (w_small <= 0.0 or abs(w1 - w2) > 0.25 * w_small)
+    derivative_ok = True
+    if by_parts:
+        # the integrand of the integration by parts also follows F'' / F'^2:
+        # cut finer where dF/dz changes across the piece
+        fp1 = n1 * (c1 + t1 * (2.0 * c2 + 3.0 * t1 * c3))
+        fp2 = n2 * (c1 + t2 * (2.0 * c2 + 3.0 * t2 * c3))
+        small = min(abs(fp1), abs(fp2))
+        fp_change = abs(fp1 - fp2) / small if small > 0.0 else math.inf
+        if fp_change > 50.0:     # dF/dz nearly vanishes in the panel: no derivative here
+            by_parts = False
+            derivative_ok = False
+        else:
+            change = max(change, fp_change)
     parts = 1 + int(min(change, 1e4) / part_change)
     width = (v2 - v1) / parts
     half = 0.5 * width
+    inv_h2 = inv_h * inv_h
     x = 0.0
     ln = 0.0
     ct = 0.0
+    dsum = 0.0
     for part in range(parts):
         mid = v1 + (part + 0.5) * width
         for j in range(nodes.shape[0]):
@@ -246,18 +292,37 @@ def cubic_piece(prof, k, b, n_ref, p, z1, z2, z_s, nodes, weights, part_change):
             x += inv
             ln += n * inv
             ct += n * n * inv
+            if by_parts:
+                dn = (c1 + t * (2.0 * c2 + 3.0 * t * c3)) * inv_h
+                d2n = (2.0 * c2 + 6.0 * t * c3) * inv_h2
+                f1 = 2.0 * n * dn
+                dsum += 2.0 * (dn * dn + n * d2n) / (f1 * f1) * inv
+            else:
+                dsum += n * n * inv / wsq
+    x_over_b = x
     x *= b
-    return x, ln, ct
+    if by_parts:
+        dn1 = (c1 + t1 * (2.0 * c2 + 3.0 * t1 * c3)) * inv_h
+        dx_db = x_over_b - 2.0 * b * b * dsum
+        w1r = math.sqrt(max(w1, 1e-300))
+        dx_db -= 2.0 * b * b * (-1.0 / (2.0 * n1 * dn1)) / w1r
+        if not to_turning:
+            dn2 = (c1 + t2 * (2.0 * c2 + 3.0 * t2 * c3)) * inv_h
+            w2r = math.sqrt(max(w2, 1e-300))
+            dx_db += 2.0 * b * b * (-1.0 / (2.0 * n2 * dn2)) / w2r
+    else:
+        dx_db = dsum if derivative_ok else math.nan
+    return x, ln, ct, dx_db
 
 
 @lean_kernel
 def block_series(n_m, u_max, series, b, n_ref, p, ratio, cutoff):
-    """X [m], L [m], c T [m] over one block by its moment series (``panel_blocks``:
-    n_m, u_max and the series coefficients), and whether the series applies
+    """X [m], L [m], c T [m] and dX/db [m] over one block by its moment series
+    (``panel_blocks``: n_m, u_max and the series coefficients), and whether the series applies
     (u_max / A <= ratio).  Terms stop once (u_max / A)^j < cutoff."""
     big_a = (n_m - n_ref) * (n_m + n_ref) + p * p
     if not big_a > 0.0 or u_max > ratio * big_a:
-        return 0.0, 0.0, 0.0, False
+        return 0.0, 0.0, 0.0, 0.0, False
     r = 1.0 / big_a
     rho = u_max * r
     last = 0
@@ -268,12 +333,14 @@ def block_series(n_m, u_max, series, b, n_ref, p, ratio, cutoff):
     sx = series[0, last]
     sl = series[1, last]
     st = series[2, last]
+    sd = series[3, last]
     for i in range(last - 1, -1, -1):
         sx = sx * r + series[0, i]
         sl = sl * r + series[1, i]
         st = st * r + series[2, i]
+        sd = sd * r + series[3, i]
     scale = 1.0 / math.sqrt(big_a)
-    return b * sx * scale, sl * scale, st * scale, True
+    return b * sx * scale, sl * scale, st * scale, (sx + 2.0 * b * b * r * sd) * scale, True
 
 
 @lean_kernel
@@ -300,10 +367,13 @@ def segment(prof, b, n_ref, p, z_a, z_b, to_turning, coarse=False):
     -------
     x, length, c_time : float
         Infinite if the ray runs horizontally in a uniform panel.
+    dx_db : float
+        dX/db [m] at fixed end heights (at a moving turning point for
+        ``to_turning``).
     """
     top, bottom, kind, coef, n_top = prof[0], prof[1], prof[2], prof[3], prof[4]
     if not z_b > z_a:
-        return 0.0, 0.0, 0.0
+        return 0.0, 0.0, 0.0, 0.0
     if coarse:
         bulk_nodes, bulk_weights = NODES_COARSE, WEIGHTS_COARSE
         top_nodes, top_weights = NODES_BULK, WEIGHTS_BULK
@@ -326,58 +396,67 @@ def segment(prof, b, n_ref, p, z_a, z_b, to_turning, coarse=False):
     x = 0.0
     ln = 0.0
     ct = 0.0
+    dxb = 0.0
     m = top.shape[0]
     k = k_top
+    offset, ok, n_mid, u_max, series = prof[5], prof[6], prof[7], prof[8], prof[9]
+    top_level = offset.shape[0] - 2
     while k < m:
-        if k % BLOCK == 0 and k != k_top:
+        if k != k_top and kind[k] == CUBIC:
+            # the largest aligned block below k that lies inside the piece and
+            # passes the series test (panel_blocks): level l needs k % 2^l == 0
+            level = 0
+            while level < top_level and (k >> (level + 1)) << (level + 1) == k:
+                level += 1
             used = False
-            size = COARSE
-            last = k + COARSE - 1
-            if (k % COARSE == 0 and last < m and prof[9][k // COARSE] and top[k] <= z_b
-                    and bottom[last] >= z_a):
-                dx, dl, dt, used = block_series(prof[10][k // COARSE], prof[11][k // COARSE],
-                                                prof[12][k // COARSE], b, n_ref, p, ratio, cutoff)
-            if not used:
-                size = BLOCK
-                last = k + BLOCK - 1
-                if last < m and prof[5][k // BLOCK] and top[k] <= z_b and bottom[last] >= z_a:
-                    dx, dl, dt, used = block_series(prof[6][k // BLOCK], prof[7][k // BLOCK],
-                                                    prof[8][k // BLOCK], b, n_ref, p, ratio,
-                                                    cutoff)
+            last = k
+            while level >= 0:
+                last = k + (1 << level) - 1
+                if last < m and bottom[last] >= z_a:
+                    j = offset[level] + (k >> level)
+                    if ok[j]:
+                        dx, dl, dt, dd, used = block_series(n_mid[j], u_max[j], series[j], b,
+                                                            n_ref, p, ratio, cutoff)
+                        if used:
+                            break
+                level -= 1
             if used:
                 x += dx
                 ln += dl
                 ct += dt
+                dxb += dd
                 if bottom[last] <= z_a:
                     break
-                k += size
+                k = last + 1
                 continue
         z2 = min(z_b, top[k])
         z1 = max(z_a, bottom[k])
         if z2 > z1:
             kd = kind[k]
             if kd == EXPONENTIAL:
-                dx, dl, dt = exponential_piece(prof, k, b, n_ref, p, z1, z2,
-                                               to_turning and k == k_top)
+                dx, dl, dt, dd = exponential_piece(prof, k, b, n_ref, p, z1, z2,
+                                                   to_turning and k == k_top)
             elif kd == CUBIC:
                 if k == k_top:
-                    dx, dl, dt = cubic_piece(prof, k, b, n_ref, p, z1, z2, z_s, top_nodes,
-                                             top_weights, part_change)
+                    dx, dl, dt, dd = cubic_piece(prof, k, b, n_ref, p, z1, z2, z_s, top_nodes,
+                                                 top_weights, part_change, to_turning)
                 else:
-                    dx, dl, dt = cubic_piece(prof, k, b, n_ref, p, z1, z2, z_s, bulk_nodes,
-                                             bulk_weights, part_change)
+                    dx, dl, dt, dd = cubic_piece(prof, k, b, n_ref, p, z1, z2, z_s, bulk_nodes,
+                                                 bulk_weights, part_change, False)
             else:
                 n = coef[k, 0]
                 w = slowness(n, n_ref, p)
                 dz = z2 - z1
                 if w > 0.0:
                     dx, dl, dt = dz * b / w, dz * n / w, dz * n * n / w
+                    dd = dz * n * n / (w * w * w)
                 else:
-                    dx, dl, dt = math.inf, math.inf, math.inf
+                    dx, dl, dt, dd = math.inf, math.inf, math.inf, math.inf
             x += dx
             ln += dl
             ct += dt
+            dxb += dd
         if bottom[k] <= z_a:
             break
         k += 1
-    return x, ln, ct
+    return x, ln, ct, dxb

@@ -54,42 +54,55 @@ DIRECT_FAMILY, UP_FAMILY, AIR_FAMILY, LAYER_FAMILY = 0, 1, 2, 3
 
 @lean_kernel
 def family(mode, t, prof, geo, coarse=False):
-    """X [m], L [m], c T [m], top height [m] and kind code of family ``mode`` at t [rad].
+    """X [m], L [m], c T [m], top height [m], kind code and dX/dt [m/rad] of family
+    ``mode`` at t [rad].
 
     ``geo`` = (n_hi, z_lo, z_hi, h, n_air, n_s, z_layer): index at z_hi, the
     two heights, for the transmitted family the height h of the air point
     and the indices of air and surface, for the layer family the reflector.
-    With ``coarse`` the integrals are the cheaper ones of the scans.
+    With ``coarse`` the integrals are the cheaper ones of the scans.  In the
+    ice b = n_hi cos t, so dX/dt = -p dX/db; in the air b = n_air sin t.
     """
     n_hi, z_lo, z_hi, h, n_air, n_s, z_layer = geo
     if mode == AIR_FAMILY:
         b = n_air * math.sin(t)
         p = math.sqrt(max((n_s - b) * (n_s + b), 0.0))
-        x, ln, ct = segment(prof, b, n_s, p, z_lo, 0.0, False, coarse)
-        air = h / math.cos(t)
-        return x + h * math.tan(t), ln + air, ct + n_air * air, 0.0, es.TRANSMITTED
+        x, ln, ct, dxb = segment(prof, b, n_s, p, z_lo, 0.0, False, coarse)
+        c = math.cos(t)
+        air = h / c
+        return (x + h * math.tan(t), ln + air, ct + n_air * air, 0.0, es.TRANSMITTED,
+                h / (c * c) + n_air * c * dxb)
     b = n_hi * math.cos(t)
     p = n_hi * math.sin(t)
     if mode == LAYER_FAMILY:
-        x1, l1, t1 = segment(prof, b, n_hi, p, z_layer, z_hi, False, coarse)
-        x2, l2, t2 = segment(prof, b, n_hi, p, z_layer, z_lo, False, coarse)
-        return x1 + x2, l1 + l2, t1 + t2, z_layer, es.LAYER_REFLECTED
-    x1, l1, t1 = segment(prof, b, n_hi, p, z_lo, z_hi, False, coarse)
+        x1, l1, t1, d1 = segment(prof, b, n_hi, p, z_layer, z_hi, False, coarse)
+        x2, l2, t2, d2 = segment(prof, b, n_hi, p, z_layer, z_lo, False, coarse)
+        return x1 + x2, l1 + l2, t1 + t2, z_layer, es.LAYER_REFLECTED, -p * (d1 + d2)
+    x1, l1, t1, d1 = segment(prof, b, n_hi, p, z_lo, z_hi, False, coarse)
     if mode == DIRECT_FAMILY:
-        return x1, l1, t1, z_hi, es.DIRECT
+        return x1, l1, t1, z_hi, es.DIRECT, -p * d1
     k_t, z_t = turning_point(prof, b)
     if k_t < 0:
-        x2, l2, t2 = segment(prof, b, n_hi, p, z_hi, 0.0, False, coarse)
-        return x1 + 2.0 * x2, l1 + 2.0 * l2, t1 + 2.0 * t2, 0.0, es.REFLECTED
+        x2, l2, t2, d2 = segment(prof, b, n_hi, p, z_hi, 0.0, False, coarse)
+        return (x1 + 2.0 * x2, l1 + 2.0 * l2, t1 + 2.0 * t2, 0.0, es.REFLECTED,
+                -p * (d1 + 2.0 * d2))
     z_t = max(z_t, z_hi)
-    x2, l2, t2 = segment(prof, b, n_hi, p, z_hi, z_t, True, coarse)
-    return x1 + 2.0 * x2, l1 + 2.0 * l2, t1 + 2.0 * t2, z_t, es.REFRACTED
+    x2, l2, t2, d2 = segment(prof, b, n_hi, p, z_hi, z_t, True, coarse)
+    return (x1 + 2.0 * x2, l1 + 2.0 * l2, t1 + 2.0 * t2, z_t, es.REFRACTED,
+            -p * (d1 + 2.0 * d2))
 
 
 @lean_kernel
 def family_x(mode, t, prof, geo):
     """Horizontal distance X(t) [m] of family ``mode``."""
     return family(mode, t, prof, geo, False)[0]
+
+
+@lean_kernel
+def family_xd(mode, t, prof, geo):
+    """X(t) [m] and dX/dt [m/rad] of family ``mode``."""
+    r = family(mode, t, prof, geo, False)
+    return r[0], r[5]
 
 
 @lean_kernel
@@ -101,8 +114,10 @@ def family_x_coarse(mode, t, prof, geo):
 @lean_kernel
 def find_root(mode, x_target, t_a, f_a, t_b, f_b, prof, geo):
     """Root t [rad] of X(t) = x_target in [t_a, t_b] (f = X - x_target of opposite
-    signs at the ends, possibly infinite) by safeguarded secant steps.
+    signs at the ends, possibly infinite).
 
+    Newton steps on the analytic dX/dt, secant steps where it is not available
+    (NaN), both with the safeguard of ``bracketing.safeguarded_step``.
     Returns (t, converged) as ``exponential_solver.polish_root``.
     """
     if f_a == 0.0:
@@ -124,7 +139,8 @@ def find_root(mode, x_target, t_a, f_a, t_b, f_b, prof, geo):
         t = 0.5 * (t_a + t_b)
     width_old = abs(t_b - t_a)
     width = width_old
-    f = family_x(mode, t, prof, geo) - x_target
+    x, dx = family_xd(mode, t, prof, geo)
+    f = x - x_target
     for _ in range(MAX_ITER):
         if abs(f) <= tol:
             return t, True
@@ -132,7 +148,10 @@ def find_root(mode, x_target, t_a, f_a, t_b, f_b, prof, geo):
             lo = t
         else:
             hi = t
-        slope = (f - f_prev) / (t - t_prev) if t != t_prev else math.nan
+        if math.isfinite(dx) and dx != 0.0:
+            slope = dx
+        else:
+            slope = (f - f_prev) / (t - t_prev) if t != t_prev else math.nan
         t_new = safeguarded_step(t, f, slope, lo, hi, width_old)
         width_old = width
         width = abs(t_new - t)
@@ -140,7 +159,8 @@ def find_root(mode, x_target, t_a, f_a, t_b, f_b, prof, geo):
             return t_new, True
         t_prev, f_prev = t, f
         t = t_new
-        f = family_x(mode, t, prof, geo) - x_target
+        x, dx = family_xd(mode, t, prof, geo)
+        f = x - x_target
     return t, False
 
 
@@ -234,8 +254,9 @@ def store_general(out, kinds, conv, i, k, mode, t, ok, swapped, t_min, t_max, pr
     """Evaluate the ray of family ``mode`` at t and write it to row i, slot k; the
     spreading derivative stays inside the branch [t_min, t_max] holding t."""
     n_hi, z_lo, z_hi, h, n_air, n_s, z_layer = geo
-    x, length, c_time, z_top, code = family(mode, t, prof, geo)
-    dx = slope_at(mode, t, t_min, t_max, prof, geo)
+    x, length, c_time, z_top, code, dx = family(mode, t, prof, geo, False)
+    if not math.isfinite(dx):
+        dx = slope_at(mode, t, t_min, t_max, prof, geo)
     n_lo = index_at(prof, z_lo)
     if mode == AIR_FAMILY:
         b = n_air * math.sin(t)
@@ -290,47 +311,79 @@ def scan_point(j, psi_s, n_scan):
 
 
 @lean_kernel
-def up_family_scan(prof, geo, x_target, x_h, psi_s, ts, fs, extra_t, extra_f, exact):
+def stationary_point(t_a, d_a, t_b, d_b, prof, geo, x_target):
+    """Zero of dX/dt of the up-going family between t_a and t_b (slopes d_a, d_b of
+    opposite signs) by the Illinois variant of regula falsi on the exact slope;
+    returns (t, X(t) - x_target)."""
+    side = 0
+    t = t_a
+    x = 0.0
+    for _ in range(MAX_ITER):
+        t = (t_a * d_b - t_b * d_a) / (d_b - d_a)
+        if not (t > min(t_a, t_b) and t < max(t_a, t_b)):
+            t = 0.5 * (t_a + t_b)
+        x, d = family_xd(UP_FAMILY, t, prof, geo)
+        if d == 0.0 or not math.isfinite(d) or abs(t_b - t_a) <= 1e-13 * max(abs(t), 1e-3):
+            break
+        if (d > 0.0) == (d_a > 0.0):
+            t_a, d_a = t, d
+            if side == 1:
+                d_b *= 0.5
+            side = 1
+        else:
+            t_b, d_b = t, d
+            if side == -1:
+                d_a *= 0.5
+            side = -1
+    return t, x - x_target
+
+
+@lean_kernel
+def up_family_scan(prof, geo, x_target, x_h, psi_s, ts, fs, extra_t, extra_f, exact, ds):
     """Scan of the refracted branch, refined at extrema; fills ts, fs (length >=
     2 n_scan + 2) and returns the number of points, in increasing t.
 
-    A sampled maximum below the target (the last sample included: the
-    largest reach may lie just before the grazing ray) and a sampled minimum
-    above it are refined; the refined extremum joins the scan, so that a
-    crossing hidden between two samples shows as a sign change.
+    The scan (cheap integrals, with the slope dX/dt) finds each extremum that
+    could hide crossings of the target: an interval whose end slopes change
+    sign around a maximum below the target (or a minimum above it) is refined
+    by the zero of the exact slope; the first interval (slope unknown at t = 0)
+    and the last (the slope is infinite at the grazing ray) by Brent's search
+    on X when their samples point to a maximum there.  Each refined extremum
+    joins the scan, so that a hidden crossing shows as a sign change.
     """
     n_scan = (ts.shape[0] - 4) // 2        # scan intervals: the scratch rows hold 2 n_scan + 4
     ts[0] = 0.0
     fs[0] = x_h - x_target
+    ds[0] = math.nan
     exact[0] = 1.0
     for j in range(1, n_scan + 1):
         ts[j] = scan_point(j, psi_s, n_scan)
-        fs[j] = family_x_coarse(UP_FAMILY, ts[j], prof, geo) - x_target
+        r = family(UP_FAMILY, ts[j], prof, geo, True)
+        fs[j] = r[0] - x_target
+        ds[j] = r[5]
         exact[j] = 0.0
     m = n_scan + 1
     n_extra = 0
-    for j in range(n_scan + 1):
-        f1 = fs[j]
-        f0 = fs[j - 1] if j > 0 else -math.inf
-        f2 = fs[j + 1] if j < n_scan else -math.inf
-        if f1 >= f0 and f1 >= f2 and f1 < 0.0:          # a maximum below the target
-            make_exact(j, ts, fs, exact, prof, geo, x_target)
-            f1 = fs[j]
-            t_a = ts[j - 1] if j > 0 else ts[0]
-            t_b = ts[j + 1] if j < n_scan else ts[n_scan]
-            if j == 0 or j == n_scan:                     # the peak may lie inside the end interval
-                t0 = 0.5 * (ts[0] + ts[1]) if j == 0 else 0.5 * (ts[n_scan - 1] + ts[n_scan])
-                f_start = family_x(UP_FAMILY, t0, prof, geo) - x_target
-            else:
-                t0, f_start = ts[j], f1
-            t_e, f_e = extremum(1, t_a, t_b, t0, f_start, 0.0, prof, geo, x_target)
-        elif 0 < j < n_scan and f1 <= f0 and f1 <= f2 and f1 > 0.0 and math.isfinite(f0):
-            make_exact(j, ts, fs, exact, prof, geo, x_target)
-            f1 = fs[j]
-            t_e, f_e = extremum(-1, ts[j - 1], ts[j + 1], ts[j], f1, 0.0, prof, geo, x_target)
-        else:
-            continue
-        if t_e != ts[j]:
+    for i in range(1, n_scan + 1):
+        fa, fb = fs[i - 1], fs[i]
+        da, db = ds[i - 1], ds[i]
+        found = False
+        if math.isfinite(da) and math.isfinite(db) and ((da > 0.0 > db and fa < 0.0 and fb < 0.0)
+                                                      or (da < 0.0 < db and fa > 0.0 and fb > 0.0)):
+            _, da_exact = family_xd(UP_FAMILY, ts[i - 1], prof, geo)
+            _, db_exact = family_xd(UP_FAMILY, ts[i], prof, geo)
+            if (da_exact > 0.0) != (db_exact > 0.0):
+                t_e, f_e = stationary_point(ts[i - 1], da_exact, ts[i], db_exact, prof, geo,
+                                            x_target)
+                found = True
+        elif (i == 1 and fa < 0.0 and fb < 0.0 and not db > 0.0) or (
+                i == n_scan and fa < 0.0 and fb < 0.0 and not da < 0.0):
+            # a maximum may lie inside an end interval
+            t0 = 0.5 * (ts[i - 1] + ts[i])
+            f_start = family_x(UP_FAMILY, t0, prof, geo) - x_target
+            t_e, f_e = extremum(1, ts[i - 1], ts[i], t0, f_start, 0.0, prof, geo, x_target)
+            found = True
+        if found and n_extra < extra_t.shape[0]:
             extra_t[n_extra] = t_e
             extra_f[n_extra] = f_e
             n_extra += 1
@@ -393,12 +446,13 @@ def solve_ice(out, kinds, conv, i, prof, x_target, z_src, z_rcv, scratch):
     if z_hi >= 0.0:
         return k
     psi_s = math.atan2(math.sqrt(max((n_hi - n_s) * (n_hi + n_s), 0.0)), n_s)
-    ts, fs, extra_t, extra_f, exact = scratch[0], scratch[1], scratch[2], scratch[3], scratch[4]
+    ts, fs, extra_t, extra_f, exact, ds = (scratch[0], scratch[1], scratch[2], scratch[3],
+                                           scratch[4], scratch[5])
     m = 1
     ts[0] = 0.0
     fs[0] = x_h - x_target
     if psi_s > 0.0:
-        m = up_family_scan(prof, geo, x_target, x_h, psi_s, ts, fs, extra_t, extra_f, exact)
+        m = up_family_scan(prof, geo, x_target, x_h, psi_s, ts, fs, extra_t, extra_f, exact, ds)
     else:
         fs[0] = family_x(UP_FAMILY, 0.0, prof, geo) - x_target
     n_up = 0
@@ -513,7 +567,7 @@ def solve_pairs(prof, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, c
     n = x_target.shape[0]
     n_chunks = (n + CHUNK - 1) // CHUNK
     for c in numba.prange(n_chunks):
-        scratch = np.empty((5, 2 * n_scan + 4))
+        scratch = np.empty((6, 2 * n_scan + 4))
         for i in range(c * CHUNK, min(n, (c + 1) * CHUNK)):
             solve_row(i, prof, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, count,
                       scratch)
@@ -523,7 +577,7 @@ def solve_pairs(prof, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, c
 def solve_pairs_serial(prof, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, count,
                        n_scan):
     """:func:`solve_pairs` on the calling thread."""
-    scratch = np.empty((5, 2 * n_scan + 4))
+    scratch = np.empty((6, 2 * n_scan + 4))
     for i in range(x_target.shape[0]):
         solve_row(i, prof, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, count,
                   scratch)
