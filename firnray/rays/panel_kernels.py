@@ -59,6 +59,8 @@ PART_CHANGE = 0.03
 _x2, _w2 = np.polynomial.legendre.leggauss(2)
 NODES_COARSE, WEIGHTS_COARSE = _x2.copy(), _w2.copy()
 COARSE_PART_CHANGE = 0.25
+#: Largest relative change of dF/dz (F = n^2) across one part of the integral by parts of dX/db.
+DERIVATIVE_PART_CHANGE = 0.5
 COARSE_RATIO = 0.5
 #: Rule for the cubic panel at the top of a piece (turning point or near-grazing).
 NODES_TOP, WEIGHTS_TOP = _x8.copy(), _w8.copy()
@@ -270,7 +272,7 @@ def cubic_piece(prof, k, b, n_ref, p, z1, z2, z_s, nodes, weights, part_change, 
             by_parts = False
             derivative_ok = False
         else:
-            change = max(change, fp_change)
+            change = max(change, fp_change * part_change / DERIVATIVE_PART_CHANGE)
     parts = 1 + int(min(change, 1e4) / part_change)
     width = (v2 - v1) / parts
     half = 0.5 * width

@@ -13,13 +13,16 @@ at z_hi gives b = n_hi cos(psi), p = n_hi sin(psi), and
 Unlike the single exponential, a general profile (a kink in dn/dz at a break,
 a measured table) need not give the refracted branch a single maximum.  It is
 therefore scanned at ``SCAN`` values of psi (by default; ``scan_points`` of
-``find_rays_many``) crowding towards both ends; every
-sampled local maximum below the target distance (and minimum above it) is
-refined by Brent's golden-section/parabolic search, and a sign change of
-X - x_target between neighbouring points of the refined scan is a root.  Each
-root is polished by secant steps inside its bracket, with the safeguard of
-``bracketing.safeguarded_step``.  The spreading derivative dX/dpsi comes from
-a central difference at the root.
+``find_rays_many``) crowding towards both ends, with the cheaper integrals and
+their slope dX/dpsi; where the sampled slope changes sign around a maximum
+below the target distance (or a minimum above it) the zero of the exact slope
+is found, and where no slope is known the sampled values select Brent's
+golden-section/parabolic search instead.  A sign change of X - x_target
+between neighbouring points of the refined scan is a root, polished by
+Newton steps on the analytic dX/dpsi (secant steps where it is not known)
+inside its bracket, with the safeguard of ``bracketing.safeguarded_step``.
+The same analytic dX/dpsi gives the spreading factor; a central difference
+of X stands in where it is not known.
 
 One point in the air gives the transmitted ray (parameter: the zenith phi in
 the air); two points in the air are solved as straight lines.
@@ -311,10 +314,14 @@ def scan_point(j, psi_s, n_scan):
 
 
 @lean_kernel
-def stationary_point(t_a, d_a, t_b, d_b, prof, geo, x_target):
+def stationary_point(t_a, d_a, t_b, d_b, prof, geo, x_target, sign):
     """Zero of dX/dt of the up-going family between t_a and t_b (slopes d_a, d_b of
     opposite signs) by the Illinois variant of regula falsi on the exact slope;
-    returns (t, X(t) - x_target)."""
+    returns (t, X(t) - x_target).
+
+    ``sign`` = 1 for a maximum below the target, -1 for a minimum above it: the
+    search stops early once sign (X - x_target) > 0, since the point found
+    then already shows the crossings on both sides."""
     side = 0
     t = t_a
     x = 0.0
@@ -323,7 +330,8 @@ def stationary_point(t_a, d_a, t_b, d_b, prof, geo, x_target):
         if not (t > min(t_a, t_b) and t < max(t_a, t_b)):
             t = 0.5 * (t_a + t_b)
         x, d = family_xd(UP_FAMILY, t, prof, geo)
-        if d == 0.0 or not math.isfinite(d) or abs(t_b - t_a) <= 1e-13 * max(abs(t), 1e-3):
+        if (d == 0.0 or not math.isfinite(d) or sign * (x - x_target) > 0.0
+                or abs(t_b - t_a) <= 1e-13 * max(abs(t), 1e-3)):
             break
         if (d > 0.0) == (d_a > 0.0):
             t_a, d_a = t, d
@@ -346,10 +354,12 @@ def up_family_scan(prof, geo, x_target, x_h, psi_s, ts, fs, extra_t, extra_f, ex
     The scan (cheap integrals, with the slope dX/dt) finds each extremum that
     could hide crossings of the target: an interval whose end slopes change
     sign around a maximum below the target (or a minimum above it) is refined
-    by the zero of the exact slope; the first interval (slope unknown at t = 0)
-    and the last (the slope is infinite at the grazing ray) by Brent's search
-    on X when their samples point to a maximum there.  Each refined extremum
-    joins the scan, so that a hidden crossing shows as a sign change.
+    by the zero of the exact slope; the first interval (slope unknown at t = 0),
+    the last (the slope is infinite at the grazing ray) and the neighbours of a
+    sample without a slope (NaN, where dn/dz nearly vanishes near the ray's
+    top) by Brent's search on X when the sampled values point to an extremum
+    there.  Each refined extremum joins the scan, so that a hidden crossing
+    shows as a sign change.
     """
     n_scan = (ts.shape[0] - 4) // 2        # scan intervals: the scratch rows hold 2 n_scan + 4
     ts[0] = 0.0
@@ -372,9 +382,10 @@ def up_family_scan(prof, geo, x_target, x_h, psi_s, ts, fs, extra_t, extra_f, ex
                                                       or (da < 0.0 < db and fa > 0.0 and fb > 0.0)):
             _, da_exact = family_xd(UP_FAMILY, ts[i - 1], prof, geo)
             _, db_exact = family_xd(UP_FAMILY, ts[i], prof, geo)
-            if (da_exact > 0.0) != (db_exact > 0.0):
+            if (math.isfinite(da_exact) and math.isfinite(db_exact)
+                    and (da_exact > 0.0) != (db_exact > 0.0)):
                 t_e, f_e = stationary_point(ts[i - 1], da_exact, ts[i], db_exact, prof, geo,
-                                            x_target)
+                                            x_target, 1 if fa < 0.0 else -1)
                 found = True
         elif (i == 1 and fa < 0.0 and fb < 0.0 and not db > 0.0) or (
                 i == n_scan and fa < 0.0 and fb < 0.0 and not da < 0.0):
@@ -387,6 +398,23 @@ def up_family_scan(prof, geo, x_target, x_h, psi_s, ts, fs, extra_t, extra_f, ex
             extra_t[n_extra] = t_e
             extra_f[n_extra] = f_e
             n_extra += 1
+    for j in range(1, n_scan):
+        if math.isfinite(ds[j]) or n_extra >= extra_t.shape[0]:
+            continue
+        # no slope at this sample (dn/dz nearly vanishes near the ray's top): the
+        # sampled values tell a maximum below the target or a minimum above it
+        f0, f1, f2 = fs[j - 1], fs[j], fs[j + 1]
+        if f1 >= f0 and f1 >= f2 and f1 < 0.0:
+            sign = 1
+        elif f1 <= f0 and f1 <= f2 and f1 > 0.0:
+            sign = -1
+        else:
+            continue
+        make_exact(j, ts, fs, exact, prof, geo, x_target)
+        t_e, f_e = extremum(sign, ts[j - 1], ts[j + 1], ts[j], fs[j], 0.0, prof, geo, x_target)
+        extra_t[n_extra] = t_e
+        extra_f[n_extra] = f_e
+        n_extra += 1
     for j in range(n_extra):
         m = insert_point(ts, fs, exact, m, extra_t[j], extra_f[j])
     return m
