@@ -59,8 +59,6 @@ PART_CHANGE = 0.03
 _x2, _w2 = np.polynomial.legendre.leggauss(2)
 NODES_COARSE, WEIGHTS_COARSE = _x2.copy(), _w2.copy()
 COARSE_PART_CHANGE = 0.25
-#: Largest relative change of dF/dz (F = n^2) across one part of the integral by parts of dX/db.
-DERIVATIVE_PART_CHANGE = 0.5
 COARSE_RATIO = 0.5
 #: Rule for the cubic panel at the top of a piece (turning point or near-grazing).
 NODES_TOP, WEIGHTS_TOP = _x8.copy(), _w8.copy()
@@ -264,15 +262,24 @@ def cubic_piece(prof, k, b, n_ref, p, z1, z2, z_s, nodes, weights, part_change, 
     if by_parts:
         # the integrand of the integration by parts also follows F'' / F'^2:
         # cut finer where dF/dz changes across the piece
-        fp1 = n1 * (c1 + t1 * (2.0 * c2 + 3.0 * t1 * c3))
-        fp2 = n2 * (c1 + t2 * (2.0 * c2 + 3.0 * t2 * c3))
-        small = min(abs(fp1), abs(fp2))
-        fp_change = abs(fp1 - fp2) / small if small > 0.0 else math.inf
+        # (judged at both ends and where dn/dt, a quadratic in t, has its extremum)
+        fp1 = abs(n1 * (c1 + t1 * (2.0 * c2 + 3.0 * t1 * c3)))
+        fp2 = abs(n2 * (c1 + t2 * (2.0 * c2 + 3.0 * t2 * c3)))
+        small = min(fp1, fp2)
+        large = max(fp1, fp2)
+        if c3 != 0.0:
+            t_e = -c2 / (3.0 * c3)
+            if (t_e - t1) * (t_e - t2) < 0.0:
+                n_e = c0 + t_e * (c1 + t_e * (c2 + t_e * c3))
+                fp_e = abs(n_e * (c1 + t_e * (2.0 * c2 + 3.0 * t_e * c3)))
+                small = min(small, fp_e)
+                large = max(large, fp_e)
+        fp_change = (large - small) / small if small > 0.0 else math.inf
         if fp_change > 50.0:     # dF/dz nearly vanishes in the panel: no derivative here
             by_parts = False
             derivative_ok = False
         else:
-            change = max(change, fp_change * part_change / DERIVATIVE_PART_CHANGE)
+            change = max(change, fp_change)
     parts = 1 + int(min(change, 1e4) / part_change)
     width = (v2 - v1) / parts
     half = 0.5 * width
