@@ -59,7 +59,7 @@ PART_CHANGE = 0.03
 _x2, _w2 = np.polynomial.legendre.leggauss(2)
 NODES_COARSE, WEIGHTS_COARSE = _x2.copy(), _w2.copy()
 COARSE_PART_CHANGE = 0.25
-COARSE_RATIO = 0.5
+COARSE_RATIO = 0.4
 #: Rule for the cubic panel at the top of a piece (turning point or near-grazing).
 NODES_TOP, WEIGHTS_TOP = _x8.copy(), _w8.copy()
 
@@ -325,10 +325,11 @@ def cubic_piece(prof, k, b, n_ref, p, z1, z2, z_s, nodes, weights, part_change, 
 
 
 @lean_kernel
-def block_series(n_m, u_max, series, b, n_ref, p, ratio, cutoff):
+def block_series(n_m, u_max, series, b, n_ref, p, ratio, cutoff, full):
     """X [m], L [m], c T [m] and dX/db [m] over one block by its moment series
-    (``panel_blocks``: n_m, u_max and the series coefficients), and whether the series applies
-    (u_max / A <= ratio).  Terms stop once (u_max / A)^j < cutoff."""
+    (``panel_blocks``: n_m, u_max and the series coefficients), and whether the
+    series applies (u_max / A <= ratio).  Terms stop once (u_max / A)^j < cutoff.
+    Without ``full`` only X and dX/db are summed (L and c T are returned as 0)."""
     big_a = (n_m - n_ref) * (n_m + n_ref) + p * p
     if not big_a > 0.0 or u_max > ratio * big_a:
         return 0.0, 0.0, 0.0, 0.0, False
@@ -340,20 +341,27 @@ def block_series(n_m, u_max, series, b, n_ref, p, ratio, cutoff):
         bound *= rho
         last += 1
     sx = series[0, last]
-    sl = series[1, last]
-    st = series[2, last]
     sd = series[3, last]
-    for i in range(last - 1, -1, -1):
-        sx = sx * r + series[0, i]
-        sl = sl * r + series[1, i]
-        st = st * r + series[2, i]
-        sd = sd * r + series[3, i]
+    sl = 0.0
+    st = 0.0
+    if full:
+        sl = series[1, last]
+        st = series[2, last]
+        for i in range(last - 1, -1, -1):
+            sx = sx * r + series[0, i]
+            sl = sl * r + series[1, i]
+            st = st * r + series[2, i]
+            sd = sd * r + series[3, i]
+    else:
+        for i in range(last - 1, -1, -1):
+            sx = sx * r + series[0, i]
+            sd = sd * r + series[3, i]
     scale = 1.0 / math.sqrt(big_a)
     return b * sx * scale, sl * scale, st * scale, (sx + 2.0 * b * b * r * sd) * scale, True
 
 
 @lean_kernel
-def segment(prof, b, n_ref, p, z_a, z_b, to_turning, coarse=False):
+def segment(prof, b, n_ref, p, z_a, z_b, to_turning, coarse=False, full=True):
     """X [m], L [m] and c T [m] of the monotone piece of a ray from z_a up to z_b.
 
     Parameters
@@ -371,6 +379,9 @@ def segment(prof, b, n_ref, p, z_a, z_b, to_turning, coarse=False):
     coarse : bool, optional
         A cheaper evaluation, good to about 1e-6 relative, for scans that only
         place brackets (fewer nodes and parts, a looser series).
+    full : bool, optional
+        Also L and c T; without it (root finding) the block series sum only X
+        and dX/db, and L and c T of those blocks are left out.
 
     Returns
     -------
@@ -386,7 +397,7 @@ def segment(prof, b, n_ref, p, z_a, z_b, to_turning, coarse=False):
     if coarse:
         bulk_nodes, bulk_weights = NODES_COARSE, WEIGHTS_COARSE
         top_nodes, top_weights = NODES_BULK, WEIGHTS_BULK
-        part_change, ratio, cutoff = COARSE_PART_CHANGE, COARSE_RATIO, 1e-9
+        part_change, ratio, cutoff = COARSE_PART_CHANGE, COARSE_RATIO, 1e-7
     else:
         bulk_nodes, bulk_weights = NODES_BULK, WEIGHTS_BULK
         top_nodes, top_weights = NODES_TOP, WEIGHTS_TOP
@@ -425,7 +436,7 @@ def segment(prof, b, n_ref, p, z_a, z_b, to_turning, coarse=False):
                     j = offset[level] + (k >> level)
                     if ok[j]:
                         dx, dl, dt, dd, used = block_series(n_mid[j], u_max[j], series[j], b,
-                                                            n_ref, p, ratio, cutoff)
+                                                            n_ref, p, ratio, cutoff, full)
                         if used:
                             break
                 level -= 1

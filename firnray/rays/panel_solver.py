@@ -49,6 +49,9 @@ MAX_UP = 5
 #: Slots per pair: the direct ray and MAX_UP up-going rays.
 MAX_RAYS = 1 + MAX_UP
 MAX_ITER = 200
+#: A coarse scan value (about 1e-6 relative) farther than this fraction of
+#: 1 m + x_target from the target has a certain sign; nearer ones are re-evaluated.
+COARSE_TRUST = 1e-4
 GOLDEN = 0.3819660112501051
 
 # families (mode codes of ``family``)
@@ -56,21 +59,22 @@ DIRECT_FAMILY, UP_FAMILY, AIR_FAMILY, LAYER_FAMILY = 0, 1, 2, 3
 
 
 @lean_kernel
-def family(mode, t, prof, geo, coarse=False):
+def family(mode, t, prof, geo, coarse=False, full=True):
     """X [m], L [m], c T [m], top height [m], kind code and dX/dt [m/rad] of family
     ``mode`` at t [rad].
 
     ``geo`` = (n_hi, z_lo, z_hi, h, n_air, n_s, z_layer): index at z_hi, the
     two heights, for the transmitted family the height h of the air point
     and the indices of air and surface, for the layer family the reflector.
-    With ``coarse`` the integrals are the cheaper ones of the scans.  In the
+    With ``coarse`` the integrals are the cheaper ones of the scans; without
+    ``full`` L and c T are incomplete (root finding needs X and dX/dt only).  In the
     ice b = n_hi cos t, so dX/dt = -p dX/db; in the air b = n_air sin t.
     """
     n_hi, z_lo, z_hi, h, n_air, n_s, z_layer = geo
     if mode == AIR_FAMILY:
         b = n_air * math.sin(t)
         p = math.sqrt(max((n_s - b) * (n_s + b), 0.0))
-        x, ln, ct, dxb = segment(prof, b, n_s, p, z_lo, 0.0, False, coarse)
+        x, ln, ct, dxb = segment(prof, b, n_s, p, z_lo, 0.0, False, coarse, full)
         c = math.cos(t)
         air = h / c
         return (x + h * math.tan(t), ln + air, ct + n_air * air, 0.0, es.TRANSMITTED,
@@ -78,19 +82,19 @@ def family(mode, t, prof, geo, coarse=False):
     b = n_hi * math.cos(t)
     p = n_hi * math.sin(t)
     if mode == LAYER_FAMILY:
-        x1, l1, t1, d1 = segment(prof, b, n_hi, p, z_layer, z_hi, False, coarse)
-        x2, l2, t2, d2 = segment(prof, b, n_hi, p, z_layer, z_lo, False, coarse)
+        x1, l1, t1, d1 = segment(prof, b, n_hi, p, z_layer, z_hi, False, coarse, full)
+        x2, l2, t2, d2 = segment(prof, b, n_hi, p, z_layer, z_lo, False, coarse, full)
         return x1 + x2, l1 + l2, t1 + t2, z_layer, es.LAYER_REFLECTED, -p * (d1 + d2)
-    x1, l1, t1, d1 = segment(prof, b, n_hi, p, z_lo, z_hi, False, coarse)
+    x1, l1, t1, d1 = segment(prof, b, n_hi, p, z_lo, z_hi, False, coarse, full)
     if mode == DIRECT_FAMILY:
         return x1, l1, t1, z_hi, es.DIRECT, -p * d1
     k_t, z_t = turning_point(prof, b)
     if k_t < 0:
-        x2, l2, t2, d2 = segment(prof, b, n_hi, p, z_hi, 0.0, False, coarse)
+        x2, l2, t2, d2 = segment(prof, b, n_hi, p, z_hi, 0.0, False, coarse, full)
         return (x1 + 2.0 * x2, l1 + 2.0 * l2, t1 + 2.0 * t2, 0.0, es.REFLECTED,
                 -p * (d1 + 2.0 * d2))
     z_t = max(z_t, z_hi)
-    x2, l2, t2, d2 = segment(prof, b, n_hi, p, z_hi, z_t, True, coarse)
+    x2, l2, t2, d2 = segment(prof, b, n_hi, p, z_hi, z_t, True, coarse, full)
     return (x1 + 2.0 * x2, l1 + 2.0 * l2, t1 + 2.0 * t2, z_t, es.REFRACTED,
             -p * (d1 + 2.0 * d2))
 
@@ -98,26 +102,27 @@ def family(mode, t, prof, geo, coarse=False):
 @lean_kernel
 def family_x(mode, t, prof, geo):
     """Horizontal distance X(t) [m] of family ``mode``."""
-    return family(mode, t, prof, geo, False)[0]
+    return family(mode, t, prof, geo, False, False)[0]
 
 
 @lean_kernel
 def family_xd(mode, t, prof, geo):
     """X(t) [m] and dX/dt [m/rad] of family ``mode``."""
-    r = family(mode, t, prof, geo, False)
+    r = family(mode, t, prof, geo, False, False)
     return r[0], r[5]
 
 
 @lean_kernel
 def family_x_coarse(mode, t, prof, geo):
     """X(t) [m] of family ``mode`` by the cheaper integrals (about 1e-6 relative)."""
-    return family(mode, t, prof, geo, True)[0]
+    return family(mode, t, prof, geo, True, False)[0]
 
 
 @lean_kernel
-def find_root(mode, x_target, t_a, f_a, t_b, f_b, prof, geo):
+def find_root(mode, x_target, t_a, f_a, t_b, f_b, prof, geo, t_start=math.nan):
     """Root t [rad] of X(t) = x_target in [t_a, t_b] (f = X - x_target of opposite
-    signs at the ends, possibly infinite).
+    signs at the ends, possibly infinite), from ``t_start`` if it lies inside
+    (else from the secant of the ends).
 
     Newton steps on the analytic dX/dt, secant steps where it is not available
     (NaN), both with the safeguard of ``bracketing.safeguarded_step``.
@@ -138,6 +143,8 @@ def find_root(mode, x_target, t_a, f_a, t_b, f_b, prof, geo):
     else:
         t = 0.5 * (t_a + t_b)
         t_prev, f_prev = (t_a, f_a) if math.isfinite(f_a) else (t_b, f_b)
+    if (t_start - lo) * (t_start - hi) < 0.0:
+        t = t_start
     if not (t - lo) * (t - hi) < 0.0:
         t = 0.5 * (t_a + t_b)
     width_old = abs(t_b - t_a)
@@ -165,6 +172,17 @@ def find_root(mode, x_target, t_a, f_a, t_b, f_b, prof, geo):
         x, dx = family_xd(mode, t, prof, geo)
         f = x - x_target
     return t, False
+
+
+@lean_kernel
+def direct_start(x_target, x_h, dz):
+    """Starting elevation [rad] for the direct family: the root of the model
+    X(psi) = dz cos(psi) / sqrt(sin(psi)^2 + e^2), e = dz / x_h, exact for
+    uniform ice (e = 0) and right at both ends (X(0) = x_h, X(pi/2) = 0)."""
+    r = x_target / dz
+    e = dz / x_h if math.isfinite(x_h) else 0.0
+    s2 = (1.0 - r * r * e * e) / (1.0 + r * r)
+    return math.asin(math.sqrt(min(max(s2, 0.0), 1.0)))
 
 
 @lean_kernel
@@ -257,7 +275,7 @@ def store_general(out, kinds, conv, i, k, mode, t, ok, swapped, t_min, t_max, pr
     """Evaluate the ray of family ``mode`` at t and write it to row i, slot k; the
     spreading derivative stays inside the branch [t_min, t_max] holding t."""
     n_hi, z_lo, z_hi, h, n_air, n_s, z_layer = geo
-    x, length, c_time, z_top, code, dx = family(mode, t, prof, geo, False)
+    x, length, c_time, z_top, code, dx = family(mode, t, prof, geo, False, True)
     if not math.isfinite(dx):
         dx = slope_at(mode, t, t_min, t_max, prof, geo)
     n_lo = index_at(prof, z_lo)
@@ -319,30 +337,38 @@ def stationary_point(t_a, d_a, t_b, d_b, prof, geo, x_target, sign):
     opposite signs) by the Illinois variant of regula falsi on the exact slope;
     returns (t, X(t) - x_target).
 
-    ``sign`` = 1 for a maximum below the target, -1 for a minimum above it: the
-    search stops early once sign (X - x_target) > 0, since the point found
-    then already shows the crossings on both sides."""
+    ``sign`` = 1 for a maximum below the target, -1 for a minimum above it.  The
+    search stops early once sign (X - x_target) > 0 (the point found then
+    shows the crossings on both sides), and once the bracket width times the
+    larger end slope is below 1e-9 (1 m + x_target).  It does not stop on a
+    bound of how far the extremum lies from the target: the scatter of a
+    measured table makes narrow spikes of X(t) (rays ducted along a nearly
+    uniform layer) that no such bound sees.
+    """
     side = 0
     t = t_a
     x = 0.0
+    flat = 1e-9 * (1.0 + abs(x_target))     # [m]
+    slope_a, slope_b = d_a, d_b             # the true end slopes (d_a, d_b get halved)
     for _ in range(MAX_ITER):
         t = (t_a * d_b - t_b * d_a) / (d_b - d_a)
         if not (t > min(t_a, t_b) and t < max(t_a, t_b)):
             t = 0.5 * (t_a + t_b)
         x, d = family_xd(UP_FAMILY, t, prof, geo)
-        if (d == 0.0 or not math.isfinite(d) or sign * (x - x_target) > 0.0
-                or abs(t_b - t_a) <= 1e-13 * max(abs(t), 1e-3)):
+        if d == 0.0 or not math.isfinite(d) or sign * (x - x_target) > 0.0:
             break
         if (d > 0.0) == (d_a > 0.0):
-            t_a, d_a = t, d
+            t_a, d_a, slope_a = t, d, d
             if side == 1:
                 d_b *= 0.5
             side = 1
         else:
-            t_b, d_b = t, d
+            t_b, d_b, slope_b = t, d, d
             if side == -1:
                 d_a *= 0.5
             side = -1
+        if abs(t_b - t_a) * max(abs(slope_a), abs(slope_b)) <= flat:
+            break
     return t, x - x_target
 
 
@@ -368,7 +394,7 @@ def up_family_scan(prof, geo, x_target, x_h, psi_s, ts, fs, extra_t, extra_f, ex
     exact[0] = 1.0
     for j in range(1, n_scan + 1):
         ts[j] = scan_point(j, psi_s, n_scan)
-        r = family(UP_FAMILY, ts[j], prof, geo, True)
+        r = family(UP_FAMILY, ts[j], prof, geo, True, False)
         fs[j] = r[0] - x_target
         ds[j] = r[5]
         exact[j] = 0.0
@@ -416,23 +442,26 @@ def up_family_scan(prof, geo, x_target, x_h, psi_s, ts, fs, extra_t, extra_f, ex
         extra_f[n_extra] = f_e
         n_extra += 1
     for j in range(n_extra):
-        m = insert_point(ts, fs, exact, m, extra_t[j], extra_f[j])
+        m = insert_point(ts, fs, ds, exact, m, extra_t[j], extra_f[j])
     return m
 
 
 @lean_kernel
-def insert_point(ts, fs, exact, m, t, f):
-    """Insert the exact point (t, f) into the sorted scan of m points; returns m + 1."""
+def insert_point(ts, fs, ds, exact, m, t, f):
+    """Insert the exact extremum (t, f) (slope 0) into the sorted scan of m points;
+    returns m + 1."""
     if m >= ts.shape[0]:
         return m
     j = m
     while j > 0 and ts[j - 1] > t:
         ts[j] = ts[j - 1]
         fs[j] = fs[j - 1]
+        ds[j] = ds[j - 1]
         exact[j] = exact[j - 1]
         j -= 1
     ts[j] = t
     fs[j] = f
+    ds[j] = 0.0
     exact[j] = 1.0
     return m + 1
 
@@ -467,7 +496,7 @@ def solve_ice(out, kinds, conv, i, prof, x_target, z_src, z_rcv, scratch):
             x_h = math.inf
         if x_target < x_h:
             t, ok = find_root(DIRECT_FAMILY, x_target, 0.0, x_h - x_target, HALF_PI, -x_target,
-                              prof, geo)
+                              prof, geo, direct_start(x_target, x_h, z_hi - z_lo))
             store_general(out, kinds, conv, i, k, DIRECT_FAMILY, t, ok, swapped, 0.0, HALF_PI, prof,
                           geo)
             k += 1
@@ -484,14 +513,18 @@ def solve_ice(out, kinds, conv, i, prof, x_target, z_src, z_rcv, scratch):
     else:
         fs[0] = family_x(UP_FAMILY, 0.0, prof, geo) - x_target
     n_up = 0
+    trust = COARSE_TRUST * (1.0 + x_target)
     for j in range(1, m):
         if n_up >= MAX_UP:
             break
         fa, fb = fs[j - 1], fs[j]
         if fb == 0.0 or (fa > 0.0 and fb < 0.0) or (fa < 0.0 and fb > 0.0):
-            # a crossing in the coarse scan: confirm it with exact values at both ends
-            make_exact(j - 1, ts, fs, exact, prof, geo, x_target)
-            make_exact(j, ts, fs, exact, prof, geo, x_target)
+            # a crossing in the coarse scan: confirm it with exact values at the ends
+            # whose coarse value is too close to the target to trust its sign
+            if abs(fa) < trust:
+                make_exact(j - 1, ts, fs, exact, prof, geo, x_target)
+            if abs(fb) < trust:
+                make_exact(j, ts, fs, exact, prof, geo, x_target)
             fa, fb = fs[j - 1], fs[j]
         if fb == 0.0 or (fa > 0.0 and fb < 0.0) or (fa < 0.0 and fb > 0.0):
             t, ok = find_root(UP_FAMILY, x_target, ts[j - 1], fa, ts[j], fb, prof, geo)
@@ -499,7 +532,7 @@ def solve_ice(out, kinds, conv, i, prof, x_target, z_src, z_rcv, scratch):
                           geo)
             k += 1
             n_up += 1
-    if psi_s > 0.0:
+    if psi_s > 0.0 and abs(fs[m - 1]) < trust:
         make_exact(m - 1, ts, fs, exact, prof, geo, x_target)
     f_s = fs[m - 1]
     if f_s > 0.0 and n_up < MAX_UP:        # reflected branch: monotone down to -x at pi/2
