@@ -358,7 +358,8 @@ def test_analytic_family_slope_matches_finite_differences(name):
             t_min = psi_s if t_max > psi_s and mode == UP_FAMILY else 0.0
             t = t_min + (t_max - t_min) * rng.uniform(0.05, 0.95)
             h = 1e-6          # [rad]: the scatter of the core shapes X(t) on scales of 1e-5 rad
-            x, slope = family(mode, t, arr, geo, False)[0], family(mode, t, arr, geo, False)[5]
+            r = family(mode, t, arr, geo, False)
+            x, slope = r[0], r[5]
             if not math.isfinite(slope):
                 continue
             ref = _central_slope(mode, t, arr, geo, h)

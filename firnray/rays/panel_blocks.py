@@ -119,7 +119,7 @@ def solver_arrays(stack):
     if cached is not None:
         return cached
     m = len(stack)
-    levels = max(int(np.ceil(np.log2(max(m, 1)))), 0) + 1
+    levels = max(m - 1, 0).bit_length() + 1      # the top level covers the stack
     n_nodes, weights = _panel_nodes(stack)
     parts = [_level(stack, n_nodes, weights, level) for level in range(levels)]
     offset = np.zeros(levels + 1, dtype=np.int64)

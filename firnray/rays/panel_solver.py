@@ -113,12 +113,6 @@ def family_xd(mode, t, prof, geo):
 
 
 @lean_kernel
-def family_x_coarse(mode, t, prof, geo):
-    """X(t) [m] of family ``mode`` by the cheaper integrals (about 1e-6 relative)."""
-    return family(mode, t, prof, geo, True, False)[0]
-
-
-@lean_kernel
 def find_root(mode, x_target, t_a, f_a, t_b, f_b, prof, geo, t_start=math.nan):
     """Root t [rad] of X(t) = x_target in [t_a, t_b] (f = X - x_target of opposite
     signs at the ends, possibly infinite), from ``t_start`` if it lies inside
@@ -406,8 +400,9 @@ def up_family_scan(prof, geo, x_target, x_h, psi_s, ts, fs, extra_t, extra_f, ex
         found = False
         if math.isfinite(da) and math.isfinite(db) and ((da > 0.0 > db and fa < 0.0 and fb < 0.0)
                                                       or (da < 0.0 < db and fa > 0.0 and fb > 0.0)):
-            _, da_exact = family_xd(UP_FAMILY, ts[i - 1], prof, geo)
-            _, db_exact = family_xd(UP_FAMILY, ts[i], prof, geo)
+            make_exact(i - 1, ts, fs, ds, exact, prof, geo, x_target)
+            make_exact(i, ts, fs, ds, exact, prof, geo, x_target)
+            da_exact, db_exact = ds[i - 1], ds[i]
             if (math.isfinite(da_exact) and math.isfinite(db_exact)
                     and (da_exact > 0.0) != (db_exact > 0.0)):
                 t_e, f_e = stationary_point(ts[i - 1], da_exact, ts[i], db_exact, prof, geo,
@@ -436,7 +431,7 @@ def up_family_scan(prof, geo, x_target, x_h, psi_s, ts, fs, extra_t, extra_f, ex
             sign = -1
         else:
             continue
-        make_exact(j, ts, fs, exact, prof, geo, x_target)
+        make_exact(j, ts, fs, ds, exact, prof, geo, x_target)
         t_e, f_e = extremum(sign, ts[j - 1], ts[j + 1], ts[j], fs[j], 0.0, prof, geo, x_target)
         extra_t[n_extra] = t_e
         extra_f[n_extra] = f_e
@@ -467,10 +462,12 @@ def insert_point(ts, fs, ds, exact, m, t, f):
 
 
 @lean_kernel
-def make_exact(j, ts, fs, exact, prof, geo, x_target):
-    """Replace a coarse scan value by the exact one."""
+def make_exact(j, ts, fs, ds, exact, prof, geo, x_target):
+    """Replace a coarse scan value and slope by the exact ones (once per point)."""
     if exact[j] == 0.0:
-        fs[j] = family_x(UP_FAMILY, ts[j], prof, geo) - x_target
+        x, d = family_xd(UP_FAMILY, ts[j], prof, geo)
+        fs[j] = x - x_target
+        ds[j] = d
         exact[j] = 1.0
 
 
@@ -522,9 +519,9 @@ def solve_ice(out, kinds, conv, i, prof, x_target, z_src, z_rcv, scratch):
             # a crossing in the coarse scan: confirm it with exact values at the ends
             # whose coarse value is too close to the target to trust its sign
             if abs(fa) < trust:
-                make_exact(j - 1, ts, fs, exact, prof, geo, x_target)
+                make_exact(j - 1, ts, fs, ds, exact, prof, geo, x_target)
             if abs(fb) < trust:
-                make_exact(j, ts, fs, exact, prof, geo, x_target)
+                make_exact(j, ts, fs, ds, exact, prof, geo, x_target)
             fa, fb = fs[j - 1], fs[j]
         if fb == 0.0 or (fa > 0.0 and fb < 0.0) or (fa < 0.0 and fb > 0.0):
             t, ok = find_root(UP_FAMILY, x_target, ts[j - 1], fa, ts[j], fb, prof, geo)
@@ -533,7 +530,7 @@ def solve_ice(out, kinds, conv, i, prof, x_target, z_src, z_rcv, scratch):
             k += 1
             n_up += 1
     if psi_s > 0.0 and abs(fs[m - 1]) < trust:
-        make_exact(m - 1, ts, fs, exact, prof, geo, x_target)
+        make_exact(m - 1, ts, fs, ds, exact, prof, geo, x_target)
     f_s = fs[m - 1]
     if f_s > 0.0 and n_up < MAX_UP:        # reflected branch: monotone down to -x at pi/2
         t, ok = find_root(UP_FAMILY, x_target, ts[m - 1], f_s, HALF_PI, -x_target, prof, geo)
