@@ -106,3 +106,101 @@ def hermite_coefficients(z, n, slope):
     d_t, d_b = h * slope[:-1], h * slope[1:]
     return np.column_stack([n_b, d_b, 3.0 * (n_t - n_b) - 2.0 * d_b - d_t,
                             2.0 * (n_b - n_t) + d_b + d_t])
+
+
+def _cubic_critical_points(coef):
+    """Interior stationary points t in (0, 1) of each cubic c0 + c1 t + c2 t^2 + c3 t^3.
+
+    Returns an (M, 2) array of t values (NaN where there is none)."""
+    c1, c2, c3 = coef[:, 1], coef[:, 2], coef[:, 3]
+    out = np.full((coef.shape[0], 2), np.nan)
+    qa, qb, qc = 3.0 * c3, 2.0 * c2, c1
+    with np.errstate(divide="ignore", invalid="ignore"):
+        disc = qb * qb - 4.0 * qa * qc
+        sq = np.sqrt(np.maximum(disc, 0.0))
+        # stable quadratic roots; the linear case where qa vanishes
+        q = -0.5 * (qb + np.copysign(sq, qb))
+        r1 = np.where(qa != 0.0, q / qa, np.where(qb != 0.0, -qc / qb, np.nan))
+        r2 = np.where((qa != 0.0) & (q != 0.0), qc / q, np.nan)
+    for j, r in enumerate((r1, r2)):
+        ok = (disc >= 0.0) & (r > 0.0) & (r < 1.0)
+        out[:, j] = np.where(ok, r, np.nan)
+    return out
+
+
+def index_turning_levels(stack):
+    """Points where the index of a panel stack is stationary, and whether it is monotone.
+
+    Between consecutive knots and interior stationary points of the cubic
+    panels n(z) is monotone, so the local minima of n are the local minima
+    of that sequence of points (a run of equal values counts as one).
+
+    Parameters
+    ----------
+    stack : PanelStack
+
+    Returns
+    -------
+    minima_z : ndarray
+        Heights of the local minima of n below the surface [m], highest
+        first (for a flat run, its top).
+    minima_n : ndarray
+        The index there [1].
+    monotone : bool
+        True if n never decreases with depth.
+    """
+    tops = stack.top
+    cubic = stack.kind == CUBIC
+    crit = _cubic_critical_points(stack.coef)
+    h = stack.top - stack.bottom
+    zc = np.where(cubic[:, None], stack.bottom[:, None] + crit * h[:, None], np.nan)
+    z_all = np.concatenate([tops, zc[np.isfinite(zc)]])
+    # the bottom of the last finite panel as well (the stack continues uniformly below)
+    finite_bottom = stack.bottom[np.isfinite(stack.bottom)]
+    z_all = np.unique(np.concatenate([z_all, finite_bottom]))[::-1]
+    n_all = evaluate_panels(stack, z_all)
+    monotone = bool(np.all(np.diff(n_all) >= -1e-15 * np.abs(n_all[1:])))
+    # collapse runs of equal values, then keep the points lower than both neighbours
+    # (differences below 1e-12 are rounding of a flat stretch)
+    keep = np.concatenate([[True], np.abs(np.diff(n_all)) > 1e-12])
+    zs, ns = z_all[keep], n_all[keep]
+    if ns.size < 3:
+        return np.empty(0), np.empty(0), monotone
+    lower = (ns[1:-1] < ns[:-2]) & (ns[1:-1] < ns[2:])
+    idx = np.flatnonzero(lower) + 1
+    return zs[idx].copy(), ns[idx].copy(), monotone
+
+
+def panel_index_range(stack):
+    """Smallest and largest index [1] of each panel (over its whole height range).
+
+    Exact for every panel kind: the extremes of a cubic lie at its ends or at
+    its interior stationary points; an exponential or uniform panel is
+    monotone (the last panel, reaching to -inf, is uniform).
+    """
+    m = len(stack)
+    c = stack.coef
+    t_top = np.ones(m)
+    n_top = stack.n_top
+    n_bottom = np.where(stack.kind == CUBIC, c[:, 0],
+                        np.where(stack.kind == UNIFORM, c[:, 0], np.nan))
+    exp = stack.kind == EXPONENTIAL
+    if np.any(exp):
+        finite = exp & np.isfinite(stack.bottom)
+        n_bottom = np.where(finite, c[:, 0] - c[:, 3] * np.exp((np.where(finite, stack.bottom, 0.0)
+                                                                - stack.top) / np.where(exp, c[:, 1], 1.0)),
+                            n_bottom)
+        n_bottom = np.where(exp & ~np.isfinite(stack.bottom), c[:, 0], n_bottom)
+    lo = np.minimum(n_top, n_bottom)
+    hi = np.maximum(n_top, n_bottom)
+    crit = _cubic_critical_points(c)
+    cubic = stack.kind == CUBIC
+    for j in range(2):
+        t = crit[:, j]
+        ok = cubic & np.isfinite(t)
+        tt = np.where(ok, t, 0.0)
+        val = c[:, 0] + tt * (c[:, 1] + tt * (c[:, 2] + tt * c[:, 3]))
+        lo = np.where(ok, np.minimum(lo, val), lo)
+        hi = np.where(ok, np.maximum(hi, val), hi)
+    del t_top
+    return lo, hi

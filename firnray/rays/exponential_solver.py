@@ -59,9 +59,15 @@ HALF_PI = 0.5 * math.pi
 MAX_ITER = 200
 
 # Output columns of the float result array, per ray.
+# COL_TURNING: the upper turning height (the lower one where there is no upper);
+# COL_LOWER_TURNING: the lower turning height of a ray that turns below an end point
+# (non-monotone profiles); COL_TURNS, COL_REFLECTIONS: numbers of turning points and
+# of surface reflections; COL_FIRST_DOWN: 1 if the ray leaves the deeper end point
+# downwards.
 (COL_INVARIANT, COL_TIME, COL_LENGTH, COL_LAUNCH, COL_ARRIVAL, COL_TURNING, COL_SLOWNESS,
- COL_SPREAD, COL_LAYER) = range(9)
-N_COLS = 9
+ COL_SPREAD, COL_LAYER, COL_LOWER_TURNING, COL_TURNS, COL_REFLECTIONS,
+ COL_FIRST_DOWN) = range(13)
+N_COLS = 13
 
 
 @kernel
@@ -319,6 +325,10 @@ def store_ray(out, kinds, conv, i, k, code, b, c_time, length, launch, arrival,
     out[i, k, COL_ARRIVAL] = math.degrees(arrival)
     out[i, k, COL_TURNING] = turning
     out[i, k, COL_SLOWNESS] = slowness
+    out[i, k, COL_LOWER_TURNING] = math.nan
+    out[i, k, COL_TURNS] = 1.0 if code == REFRACTED else 0.0
+    out[i, k, COL_REFLECTIONS] = 1.0 if code == REFLECTED else 0.0
+    out[i, k, COL_FIRST_DOWN] = 0.0
     kinds[i, k] = code
     conv[i, k] = converged
 

@@ -31,6 +31,8 @@ import weakref
 
 import numpy as np
 
+from firnray.medium.panels import panel_index_range
+
 #: Highest power of u / A kept.
 ORDER = 24
 #: Largest u_max / A for which a block is summed by its moments (exact evaluations).
@@ -78,11 +80,13 @@ def _level(stack, n_nodes, weights, level):
     ok[:] = np.all(kinds == 1, axis=1)
     if not ok.any():
         return ok, n_m, u_max, series
-    first = np.arange(nb) * size
-    last = first + size - 1
-    n_top = stack.n_top[first]
-    n_bottom = np.where(ok, stack.coef[last, 0], n_top)
-    n_m2 = 0.5 * (n_top ** 2 + n_bottom ** 2)
+    # the index range of each block (non-monotone blocks included): n_m^2 is the
+    # middle of [min n^2, max n^2] and |u| <= u_max over the block
+    p_lo, p_hi = panel_index_range(stack)
+    n_low = p_lo[:used].reshape(nb, size).min(axis=1)
+    n_high = p_hi[:used].reshape(nb, size).max(axis=1)
+    n_high = np.where(ok, n_high, n_low)
+    n_m2 = 0.5 * (n_low ** 2 + n_high ** 2)
     nn = n_nodes[:used].reshape(nb, size * n_nodes.shape[1])
     ww = weights[:used].reshape(nb, size * n_nodes.shape[1])
     u = nn * nn - n_m2[:, None]
@@ -101,7 +105,7 @@ def _level(stack, n_nodes, weights, level):
     series[:, 2] = coeff * (n_m2[:, None] * U[:, :ORDER + 1] + U[:, 1:])
     series[:, 3] = (j + 0.5) * coeff * U[:, :ORDER + 1]
     n_m[:] = np.sqrt(n_m2)
-    u_max[:] = 0.5 * (n_bottom ** 2 - n_top ** 2)
+    u_max[:] = 0.5 * (n_high ** 2 - n_low ** 2)
     series[~ok] = 0.0
     return ok, n_m, u_max, series
 

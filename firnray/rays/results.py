@@ -12,12 +12,14 @@ import numpy as np
 from firnray.medium.profiles import ExponentialProfile
 from firnray.rays import exponential_kernels as ek
 from firnray.rays import exponential_solver as es
+from firnray.rays.duct_solver import DUCTED
 from firnray.rays.panel_blocks import solver_arrays
 from firnray.rays.panel_kernels import segment
 
 #: Kind code -> name, as stored in ``RaySet.kind`` (-1 where there is no ray).
 KIND_NAMES = {es.DIRECT: "direct", es.REFRACTED: "refracted", es.REFLECTED: "reflected",
-              es.TRANSMITTED: "transmitted", es.LAYER_REFLECTED: "layer-reflected"}
+              es.TRANSMITTED: "transmitted", es.LAYER_REFLECTED: "layer-reflected",
+              DUCTED: "ducted"}
 #: Kind name -> code.
 KIND_CODES = {name: code for code, name in KIND_NAMES.items()}
 
@@ -36,8 +38,11 @@ class Ray:
     Attributes
     ----------
     kind : str
-        "direct", "refracted", "reflected", "transmitted", or
-        "layer-reflected" (off a configured ``Reflector``).
+        "direct", "refracted" (one turning point), "reflected" (at least
+        one surface reflection), "ducted" (two or more turning points and no
+        surface reflection: a ray trapped in a duct of a non-monotone
+        profile), "transmitted", or "layer-reflected" (off a configured
+        ``Reflector``).
     invariant : float
         Snell invariant b = n(z) sin(zenith) [1].
     travel_time : float
@@ -48,7 +53,17 @@ class Ray:
         Zenith angle of the propagation direction at the source and at the
         receiver [deg] (0 = up, 90 = horizontal, 180 = down).
     turning_z : float or None
-        Height of the turning point of a refracted ray [m]; None otherwise.
+        Height of the (upper) turning point [m]; for a ray whose only
+        turning points lie below both end points, their height; None for a
+        ray without turning points.
+    lower_turning_z : float or None
+        Height of the lower turning points [m] of a ray that turns below the
+        deeper end point (non-monotone profiles); None otherwise.
+    turning_points : int
+        Number of turning points (0 direct or reflected, 1 refracted, more in
+        a duct).
+    surface_reflections : int
+        Number of reflections at the surface.
     converged : bool
         Whether the root finder met its tolerance.
     source, receiver : ndarray, shape (3,)
@@ -74,12 +89,20 @@ class Ray:
 
     __slots__ = ("kind", "invariant", "travel_time", "path_length", "launch_zenith",
                  "arrival_zenith", "turning_z", "converged", "source", "receiver",
-                 "equivalent_distance", "reflector", "_profile", "_slowness")
+                 "equivalent_distance", "reflector", "_profile", "_slowness",
+                 "lower_turning_z", "turning_points", "surface_reflections", "_first_down")
 
     def __init__(self, profile, source, receiver, kind, invariant, travel_time, path_length,
                  launch_zenith, arrival_zenith, turning_z, converged, slowness,
-                 equivalent_distance=math.nan, reflector=None):
+                 equivalent_distance=math.nan, reflector=None, lower_turning_z=None,
+                 turning_points=None, surface_reflections=None, first_down=False):
         self._profile = profile
+        self.lower_turning_z = lower_turning_z
+        self.turning_points = int(turning_points if turning_points is not None
+                                  else kind == "refracted")
+        self.surface_reflections = int(surface_reflections if surface_reflections is not None
+                                       else kind == "reflected")
+        self._first_down = bool(first_down)
         self.source = source
         self.receiver = receiver
         self.kind = kind
@@ -177,7 +200,9 @@ class Ray:
                 "equivalent_distance": self.equivalent_distance,
                 "path_length": self.path_length, "launch_zenith": self.launch_zenith,
                 "arrival_zenith": self.arrival_zenith, "invariant": self.invariant,
-                "turning_z": self.turning_z, "converged": self.converged}
+                "turning_z": self.turning_z, "lower_turning_z": self.lower_turning_z,
+                "turning_points": self.turning_points,
+                "surface_reflections": self.surface_reflections, "converged": self.converged}
 
     def _horizontal(self):
         d = self.receiver[:2] - self.source[:2]
@@ -419,7 +444,12 @@ class RaySet:
     invariant : ndarray, shape (N, K)
         Snell invariant [1].
     turning_z : ndarray, shape (N, K)
-        Turning height of refracted rays [m], NaN for other kinds.
+        (Upper) turning height [m] (see ``Ray.turning_z``), NaN without one.
+    lower_turning_z : ndarray, shape (N, K)
+        Lower turning height [m] (see ``Ray.lower_turning_z``), NaN without one.
+    turning_points, surface_reflections : ndarray, shape (N, K)
+        Numbers of turning points and of surface reflections (NaN where there
+        is no ray).
     equivalent_distance : ndarray, shape (N, K)
         Geometric spreading distance R_eq [m] (see ``Ray.equivalent_distance``).
     kind : ndarray of int8, shape (N, K)
@@ -456,6 +486,9 @@ class RaySet:
         self.arrival_zenith = self._table[:, :, es.COL_ARRIVAL]
         self.turning_z = self._table[:, :, es.COL_TURNING]
         self.equivalent_distance = self._table[:, :, es.COL_SPREAD]
+        self.lower_turning_z = self._table[:, :, es.COL_LOWER_TURNING]
+        self.turning_points = self._table[:, :, es.COL_TURNS]
+        self.surface_reflections = self._table[:, :, es.COL_REFLECTIONS]
 
     def __len__(self):
         return self.count.shape[0]
@@ -485,5 +518,9 @@ class RaySet:
                             bool(self.converged[i, k]), float(row[es.COL_SLOWNESS]),
                             float(row[es.COL_SPREAD]),
                             None if math.isnan(row[es.COL_LAYER])
-                            else self.reflectors[int(row[es.COL_LAYER])]))
+                            else self.reflectors[int(row[es.COL_LAYER])],
+                            None if math.isnan(row[es.COL_LOWER_TURNING])
+                            else float(row[es.COL_LOWER_TURNING]),
+                            int(row[es.COL_TURNS]), int(row[es.COL_REFLECTIONS]),
+                            bool(row[es.COL_FIRST_DOWN] > 0.0)))
         return rays

@@ -8,15 +8,18 @@ pair.
 """
 
 import warnings
+import weakref
 
 import numba
 import numpy as np
 
 from firnray.checks import point, points
 from firnray.errors import FirnrayWarning
+from firnray.medium.panels import index_turning_levels
 from firnray.medium.profiles import ExponentialProfile, IndexProfile
 from firnray.medium.reflectors import Reflector
 from firnray.rays import exponential_solver as es
+from firnray.rays import duct_solver as ds
 from firnray.rays import panel_solver as ps
 from firnray.rays.panel_blocks import solver_arrays
 from firnray.rays.results import RaySet
@@ -68,6 +71,26 @@ def _layers(reflectors):
     return items, np.array([r.z for r in items], dtype=float)
 
 
+_DUCT_CACHE = weakref.WeakKeyDictionary()
+
+
+def duct_setup(stack):
+    """None for a monotone panel stack, else the arrays of ``duct_solver`` (cached)."""
+    try:
+        return _DUCT_CACHE[stack]
+    except KeyError:
+        pass
+    monotone = index_turning_levels(stack)[2]
+    setup = None if monotone else ds.duct_arrays(stack)
+    _DUCT_CACHE[stack] = setup
+    return setup
+
+
+def is_monotone(profile):
+    """Whether the index of ``profile`` never decreases with depth (the fast solver)."""
+    return isinstance(profile, ExponentialProfile) or duct_setup(profile.panels) is None
+
+
 def run_solver(profile, x, zs, zr, layers=es.NO_LAYERS, n_threads=None, scan_points=None):
     """Run the compiled solver that suits ``profile`` on flat arrays.
 
@@ -95,6 +118,34 @@ def run_solver(profile, x, zs, zr, layers=es.NO_LAYERS, n_threads=None, scan_poi
     """
     n_threads = numba.config.NUMBA_NUM_THREADS if n_threads is None else n_threads
     serial = n_threads == 1 or x.shape[0] < SERIAL_BELOW
+    duct = None if isinstance(profile, ExponentialProfile) else duct_setup(profile.panels)
+    if duct is not None:
+        if len(layers):
+            raise ValueError("reflectors are not yet supported in a non-monotone profile "
+                             "(its index decreases with depth somewhere); got "
+                             f"{len(layers)} reflector(s)")
+        table, kinds, conv, count = ds.allocate(x.shape[0])
+        args = (solver_arrays(profile.panels), duct, profile.n_air)
+        solver = ds.solve_pairs_duct_serial if serial else ds.solve_pairs_duct
+        n_scan = ds.SCAN if scan_points is None else scan_points
+        x = np.ascontiguousarray(x, dtype=float)
+        zs = np.ascontiguousarray(zs, dtype=float)
+        zr = np.ascontiguousarray(zr, dtype=float)
+        previous = numba.get_num_threads()
+        if not serial:
+            numba.set_num_threads(n_threads)
+        try:
+            solver(*args, x, zs, zr, table, kinds, conv, count, n_scan)
+        finally:
+            numba.set_num_threads(previous)
+        if count.size and int(count.max()) > table.shape[1]:
+            warnings.warn(f"{int((count > table.shape[1]).sum())} pair(s) have more than "
+                          f"{table.shape[1]} rays; the latest are left out",
+                          FirnrayWarning, stacklevel=4)
+            count = np.minimum(count, table.shape[1])
+        keep = max(2, int(count.max()) if count.size else 0)
+        table, kinds, conv = (np.ascontiguousarray(a[:, :keep]) for a in (table, kinds, conv))
+        return table, kinds, conv, count
     if isinstance(profile, ExponentialProfile):
         table, kinds, conv, count = es.allocate(x.shape[0], len(layers))
         args = profile.parameters
