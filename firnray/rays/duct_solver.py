@@ -327,6 +327,12 @@ def sample_piece(b_a, b_b, div_a, div_b, n_scan, bs):
     else:
         bs[m] = b_b - floor_b
         m += 1
+    # the geometric points may pass the first Chebyshev points: sort
+    for i in range(1, m):
+        j = i
+        while j > 0 and bs[j] < bs[j - 1]:
+            bs[j], bs[j - 1] = bs[j - 1], bs[j]
+            j -= 1
     return m
 
 

@@ -239,6 +239,11 @@ class Ray:
         if not isinstance(n_points, (int, np.integer)) or n_points < 2:
             raise ValueError(f"n_points must be an integer >= 2, got {n_points!r}")
         if not isinstance(self._profile, ExponentialProfile):
+            if self.kind not in ("transmitted", "layer-reflected") and max(
+                    self.source[2], self.receiver[2]) <= 0.0:
+                from firnray.rays.solve import duct_setup
+                if duct_setup(self._profile.panels) is not None:
+                    return band_ray_path(self, int(n_points))
             return panel_ray_path(self, int(n_points))
         if self.kind == "layer-reflected":
             return _layer_path(self, int(n_points))
@@ -427,6 +432,59 @@ def panel_ray_path(ray, n_points):
     x_dn = xs(z_top, down[1:], turning=turn, downward=True)
     xx = np.concatenate([x_up, [x_top], x_top + x_dn])
     zz = np.concatenate([up[:-1], [z_top], down[1:]])
+    return _assemble(xx, zz, not swapped)
+
+
+def band_ray_path(ray, n_points):
+    """Points (x, z) of a ray in a non-monotone profile: legs between the end
+    points and the band's edges (``duct_solver``), in the order the ray runs."""
+    from firnray.rays.duct_kernels import SOFT, TURNING, leg
+    from firnray.rays.solve import duct_setup
+    prof = solver_arrays(ray._profile.panels)
+    minima = duct_setup(ray._profile.panels)[1]
+    b, p = ray.invariant, ray._slowness
+    n_ref = ray._reference_index()
+    zs, zr = float(ray.source[2]), float(ray.receiver[2])
+    swapped = zs > zr
+    z_lo, z_hi = (zr, zs) if swapped else (zs, zr)
+    x_total = math.hypot(*(ray.receiver[:2] - ray.source[:2]))
+    if z_lo == z_hi and ray.turning_points + ray.surface_reflections == 0:
+        return _assemble(np.linspace(0.0, x_total, n_points), np.full(n_points, z_lo), True)
+    top_turning = ray.surface_reflections == 0 and ray.turning_z is not None and (
+        ray.lower_turning_z is None or ray.turning_z != ray.lower_turning_z)
+    z_top = 0.0 if ray.surface_reflections else (ray.turning_z if top_turning else None)
+    z_bot = ray.lower_turning_z
+    events = ray.turning_points + ray.surface_reflections
+    s = PATH_FIRN_SCALE
+
+    def rising(za, zb, low_turn, high_turn):
+        zz = _rising(za, zb, n_points, high_turn, s)
+        low = TURNING if low_turn else 0
+        xx = np.array([leg(prof, minima, b, n_ref, p, za, z, low,
+                           TURNING if (high_turn and z == zb) else 0)[0] for z in zz])
+        return xx, zz
+
+    xs, zs_out = [np.array([0.0])], [np.array([z_lo])]
+    x0, here = 0.0, z_lo
+    down = ray._first_down
+    for k in range(events + 1):
+        if k == events:
+            target = z_hi
+        else:
+            target = z_bot if down else z_top
+        if down:       # from here down to the target: the target may be a lower turning point
+            xx, zz = rising(target, here, k < events, k > 0 and top_turning)
+            xx = xx[-1] - xx[::-1]
+            zz = zz[::-1]
+        else:
+            xx, zz = rising(here, target, k > 0, k < events and top_turning)
+        xs.append(x0 + xx[1:])
+        zs_out.append(zz[1:])
+        x0 += xx[-1]
+        here = target
+        down = not down
+    xx = np.concatenate(xs)
+    zz = np.concatenate(zs_out)
     return _assemble(xx, zz, not swapped)
 
 
