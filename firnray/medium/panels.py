@@ -16,6 +16,11 @@ quadrature and uniform panels as straight lines (``docs/theory.md`` section 11).
 
 import numpy as np
 
+#: Index changes [1] below this count as flat when telling monotone profiles and
+#: local minima (above the 1e-10 default deviation of a function profile's panels,
+#: whose Hermite fit wiggles by about that much in deep ice).
+FLAT_TOLERANCE = 1e-9
+
 #: Panel kind codes.
 EXPONENTIAL, CUBIC, UNIFORM = 0, 1, 2
 
@@ -159,10 +164,10 @@ def index_turning_levels(stack):
     finite_bottom = stack.bottom[np.isfinite(stack.bottom)]
     z_all = np.unique(np.concatenate([z_all, finite_bottom]))[::-1]
     n_all = evaluate_panels(stack, z_all)
-    monotone = bool(np.all(np.diff(n_all) >= -1e-15 * np.abs(n_all[1:])))
+    # decreases below FLAT_TOLERANCE are rounding (or a panel fit's wiggle) of a flat stretch
+    monotone = bool(np.all(np.diff(n_all) >= -FLAT_TOLERANCE))
     # collapse runs of equal values, then keep the points lower than both neighbours
-    # (differences below 1e-12 are rounding of a flat stretch)
-    keep = np.concatenate([[True], np.abs(np.diff(n_all)) > 1e-12])
+    keep = np.concatenate([[True], np.abs(np.diff(n_all)) > FLAT_TOLERANCE])
     zs, ns = z_all[keep], n_all[keep]
     if ns.size < 3:
         return np.empty(0), np.empty(0), monotone
