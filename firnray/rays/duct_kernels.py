@@ -2,7 +2,7 @@
 
 Where the index is not monotone (density inversions, lenses, ducts) the part
 of a ray with Snell invariant b lives in one band of heights where n(z) > b;
-it turns where it meets the band's edges (``docs/theory.md`` section 12):
+it turns where it meets the band's edges (``docs/theory.md`` section 11.6):
 
 * the upper edge is the lowest height above the ray's shallower end point
   where n = b (:func:`crossing_up`), or the surface if there is none;

@@ -3,7 +3,7 @@
 Parametrised by its Snell invariant b, a ray between z_lo <= z_hi (both in
 the ice) lives in the band of heights around them where n > b, which needs
 b < b_max = min of n over [z_lo, z_hi].  Three legs make up every such ray
-(``docs/theory.md`` section 12):
+(``docs/theory.md`` section 11.6):
 
     a(b) = X(z_lo -> z_hi),   U(b) = X(z_hi -> top),   D(b) = X(bottom -> z_lo)
 
@@ -412,7 +412,7 @@ def spreading(prof, aux, geo, b, e_u, e_d, j, b_a, b_b, x, length, swapped, stat
 LANDING_LIMIT = 2e-4
 #: A root that does not converge within this relative distance of a divergent
 #: end of its piece is a ray running along an index minimum farther than double
-#: precision in b can resolve; it is left out (``docs/theory.md`` section 12).
+#: precision in b can resolve; it is left out (``docs/theory.md`` section 11.6).
 UNRESOLVED = 1e-9
 
 
