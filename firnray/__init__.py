@@ -28,6 +28,7 @@ from firnray.medium.firn_density import (density_to_index, herron_langway_densit
                                          kovacs_index, looyenga_index)
 from firnray.medium.index_fit import (IndexFit, fit_exponential_index,
                                       fit_piecewise_exponential_index)
+from firnray.medium.smoothing import smooth_samples
 from firnray.medium.reflectors import Reflector
 from firnray.medium.temperature import (LinearTemperature, RobinTemperature,
                                         TabulatedTemperature)
@@ -89,6 +90,7 @@ __all__ = [
     "index_profile_from_density",
     "kovacs_index",
     "looyenga_index",
+    "smooth_samples",
     "FirnrayWarning",
     "IndexProfile",
     "KIND_CODES",

@@ -71,7 +71,7 @@ def test_density_table_and_densification_files(tmp_path):
      "  n_deep: 1.78\n  scale_depth_m: 9\n", "parameters.breaks_m"),
     ("kind: index_table\nparameters:\n  depth_m: [0, 10]\n  n: [1.3, 1.4]\n  extra: 1\n",
      "parameters.extra"),
-    ("kind: index_table\nparameters:\n  depth_m: [0, 10]\n  n: [1.5, 1.4]\n", "parameters"),
+    ("kind: index_table\nparameters:\n  depth_m: [0, 10]\n  n: [1.5, 0.9]\n", "parameters.n[1]"),
 ])
 def test_file_errors_name_file_and_key(tmp_path, body, key):
     path = write(tmp_path, HEAD + body)

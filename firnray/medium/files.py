@@ -27,7 +27,8 @@ import yaml
 
 from firnray.errors import ProfileFileError
 from firnray.medium.firn_density import herron_langway_profile, index_profile_from_density
-from firnray.medium.general_profiles import PiecewiseExponentialProfile, TabulatedProfile
+from firnray.medium.general_profiles import (PiecewiseExponentialProfile, SampleError,
+                                             TabulatedProfile)
 from firnray.medium.profiles import ExponentialProfile
 
 FORMAT_VERSION = 1
@@ -40,9 +41,11 @@ _SOURCE_KEYS = {"citation", "doi", "note"}
 _KIND_PARAMETERS = {
     "exponential": ({"n_deep", "n_surface", "scale_depth_m"}, {"n_air"}),
     "piecewise_exponential": ({"n_surface", "breaks_m", "n_deep", "scale_depth_m"}, {"n_air"}),
-    "index_table": (set(), {"csv", "depth_m", "n", "n_air"}),
+    "index_table": (set(), {"csv", "depth_m", "n", "n_air", "extend_to_surface",
+                            "smoothing_window_m"}),
     "density_table": (set(), {"csv", "depth_m", "density_kg_m3", "relation",
-                              "ice_permittivity", "n_air"}),
+                              "ice_permittivity", "n_air", "extend_to_surface",
+                              "smoothing_window_m"}),
     "densification": ({"model", "temperature_c", "accumulation_m_we_per_yr",
                        "surface_density_kg_m3"},
                       {"ice_density_kg_m3", "bottom_depth_m", "spacing_m", "relation", "n_air"}),
@@ -146,7 +149,7 @@ def _choice(path, key, value, choices):
     return value
 
 
-def read_table_csv(path, columns):
+def read_table_csv(path, columns, line_numbers=False):
     """Read numeric columns from a CSV file with a header row ('#' lines are comments).
 
     Parameters
@@ -155,11 +158,14 @@ def read_table_csv(path, columns):
         CSV file.
     columns : sequence of str
         Header names to return, in this order.
+    line_numbers : bool, optional
+        Also return the line number (from 1) of each data row.
 
     Returns
     -------
     list of ndarray
-        One float array per column.
+        One float array per column, then (with ``line_numbers``) an int array
+        of the line numbers.
 
     Raises
     ------
@@ -194,11 +200,17 @@ def read_table_csv(path, columns):
             except (ValueError, IndexError):
                 raise ProfileFileError(f"{path}: line {lineno}: column '{c}': expected a "
                                        f"number, got {row[k] if k < len(row) else ''!r}") from None
-    return [np.array(v) for v in out]
+    arrays = [np.array(v) for v in out]
+    if line_numbers:
+        arrays.append(np.array([lineno for lineno, _ in lines[1:]], dtype=int))
+    return arrays
 
 
 def _table(path, params, names):
-    """Columns ``names`` from ``parameters.csv`` (relative to the YAML file) or inline lists."""
+    """Columns ``names`` from ``parameters.csv`` (relative to the YAML file) or inline lists.
+
+    Returns the columns and the CSV path and line numbers of the rows (None, None inline).
+    """
     import numpy as np
 
     if "csv" in params:
@@ -211,9 +223,10 @@ def _table(path, params, names):
             _fail(path, "parameters.csv", f"expected a file path, got {rel!r}")
         csv_path = os.path.join(os.path.dirname(os.fspath(path)), rel)
         try:
-            return read_table_csv(csv_path, names)
+            *cols, lines = read_table_csv(csv_path, names, line_numbers=True)
         except ProfileFileError as err:
             raise ProfileFileError(f"{path}: key 'parameters.csv': {err}") from None
+        return cols, csv_path, lines
     for key in names:
         if key not in params:
             _fail(path, f"parameters.{key}", "missing (or give 'csv')")
@@ -221,7 +234,41 @@ def _table(path, params, names):
     if len({c.size for c in cols}) != 1:
         _fail(path, f"parameters.{names[1]}", f"expected as many values as "
                                               f"parameters.{names[0]} ({cols[0].size})")
-    return cols
+    return cols, None, None
+
+
+def _table_options(path, params):
+    """Keywords from the optional table keys ``extend_to_surface`` and ``smoothing_window_m``."""
+    out = {}
+    if "extend_to_surface" in params:
+        flag = params["extend_to_surface"]
+        if not isinstance(flag, bool):
+            _fail(path, "parameters.extend_to_surface", f"expected true or false, got {flag!r}")
+        out["extend_to_surface"] = flag
+    if "smoothing_window_m" in params:
+        window = _number(path, "parameters.smoothing_window_m", params["smoothing_window_m"])
+        if not window > 0.0 or window == float("inf"):
+            _fail(path, "parameters.smoothing_window_m",
+                  f"expected a finite window width > 0 m, got {params['smoothing_window_m']!r}")
+        out["smoothing_window"] = window
+    return out
+
+
+def _build_table_profile(path, names, csv_path, lines, build):
+    """Call ``build()``; turn a refused sample into an error naming the file, key and row."""
+    try:
+        return build()
+    except SampleError as err:
+        column = {"z": "depth_m"}.get(err.argument, names[1])
+        message = str(err).replace("pass extend_to_surface=True",
+                                   "set parameters.extend_to_surface: true")
+        row = err.rows[-1] if len(err.rows) in (1, 2) else None
+        if csv_path is not None:
+            where = f"line {lines[row]}: " if row is not None else ""
+            raise ProfileFileError(f"{path}: key 'parameters.csv': {csv_path}: {where}"
+                                   f"column '{column}': {message}") from None
+        key = f"parameters.{column}" + (f"[{row}]" if row is not None else "")
+        raise ProfileFileError(f"{path}: key '{key}': {message}") from None
 
 
 def _build_exponential(path, params, kwargs):
@@ -241,12 +288,17 @@ def _build_piecewise(path, params, kwargs):
 
 
 def _build_index_table(path, params, kwargs):
-    depth, n = _table(path, params, ("depth_m", "n"))
-    return TabulatedProfile(-depth, n, **kwargs)
+    names = ("depth_m", "n")
+    (depth, n), csv_path, lines = _table(path, params, names)
+    options = _table_options(path, params)
+    return _build_table_profile(path, names, csv_path, lines,
+                                lambda: TabulatedProfile(-depth, n, **options, **kwargs))
 
 
 def _build_density_table(path, params, kwargs):
-    depth, rho = _table(path, params, ("depth_m", "density_kg_m3"))
+    names = ("depth_m", "density_kg_m3")
+    (depth, rho), csv_path, lines = _table(path, params, names)
+    options = _table_options(path, params)
     relation = _choice(path, "parameters.relation", params.get("relation", "kovacs"), _RELATIONS)
     extra = {}
     if "ice_permittivity" in params:
@@ -254,7 +306,10 @@ def _build_density_table(path, params, kwargs):
             _fail(path, "parameters.ice_permittivity", "only used with relation 'looyenga'")
         extra["ice_permittivity"] = _number(path, "parameters.ice_permittivity",
                                             params["ice_permittivity"])
-    return index_profile_from_density(-depth, rho, relation=relation, **extra, **kwargs)
+    return _build_table_profile(
+        path, names, csv_path, lines,
+        lambda: index_profile_from_density(-depth, rho, relation=relation, **extra, **options,
+                                           **kwargs))
 
 
 def _build_densification(path, params, kwargs):

@@ -11,7 +11,7 @@ Two kinds of published model live here, one function each:
   ``herron_langway_critical_depth`` (depth of the 550 kg/m^3 transition).
 
 Two conveniences on top turn densities into an index profile
-(``firnray.medium.profiles.TabulatedProfile``):
+(``firnray.medium.general_profiles.TabulatedProfile``):
 ``index_profile_from_density`` for measured or modelled samples and
 ``herron_langway_profile`` for a Herron & Langway site.
 
@@ -25,8 +25,9 @@ year.  Scalar in, scalar out; arrays in, arrays (broadcast) out.
 import numpy as np
 
 from firnray.checks import finite_float, positive_float
-from firnray.medium.general_profiles import TabulatedProfile
+from firnray.medium.general_profiles import SampleError, TabulatedProfile, table_samples
 from firnray.medium.profiles import DEFAULT_Z_MIN
+from firnray.medium.smoothing import smooth_samples
 
 #: Density of solid ice [kg m^-3] (value of common practice; the same value
 #: as ``firnray.medium.temperature.ICE_DENSITY``).
@@ -416,17 +417,20 @@ def herron_langway_density(z, temperature, accumulation, surface_density,
 # --------------------------------------------------------------------------- profiles
 
 def index_profile_from_density(z, density, relation="kovacs", info=None, n_air=1.0,
-                               z_min=DEFAULT_Z_MIN, **kw):
-    """Tabulated index profile from density samples.
+                               z_min=DEFAULT_Z_MIN, extend_to_surface=False,
+                               smoothing_window=None, **kw):
+    """Tabulated index profile from density samples, inversions included.
 
     Parameters
     ----------
     z : array_like
-        Heights of the samples [m], 1-D, strictly decreasing, starting at 0
-        (the surface) and negative below (a depth d is z = -d).
+        Heights of the samples [m], 1-D, <= 0 (0 at the surface, a depth d is
+        z = -d), in any order (sorted by height internally, surface first);
+        rows repeated exactly are dropped.
     density : array_like
-        Firn density at ``z`` [kg/m^3], the shape of ``z``; the index it gives
-        must increase strictly with depth (sort out non-monotone scatter first).
+        Firn density at ``z`` [kg/m^3], the shape of ``z``, finite, in
+        [0, 1000].  It may fall with depth (density inversions) or repeat one
+        value (deep ice): the index follows it.
     relation : {"kovacs", "looyenga"}, optional
         The density -> index relation (:func:`density_to_index`).
     info : dict, optional
@@ -435,37 +439,62 @@ def index_profile_from_density(z, density, relation="kovacs", info=None, n_air=1
         Index above the surface [1] (default 1.0).
     z_min : float, optional
         Lowest valid height of the profile [m] (default -5000 m).
+    extend_to_surface : bool, optional
+        Hold the shallowest value constant up to z = 0 when the shallowest
+        sample lies below the surface (default False: such a table is refused).
+    smoothing_window : float or None, optional
+        Full width [m] of a running mean applied to the DENSITY samples
+        before the relation (:func:`firnray.medium.smoothing.smooth_samples`),
+        or None (default) for none; recorded in ``info["smoothing"]``.
     **kw
         Keywords of the relation (``ice_permittivity``, ``ice_density``).
 
     Returns
     -------
-    firnray.medium.profiles.TabulatedProfile
+    firnray.medium.general_profiles.TabulatedProfile
         The profile through the samples (z, n(density)).
 
     Raises
     ------
     ValueError
-        For mismatched shapes, heights that do not start at 0 and decrease
-        strictly, bad densities, an unknown relation, or an index that does
-        not increase strictly with depth.
+        For mismatched shapes, fewer than 2 distinct heights, NaN or inf,
+        heights above the surface, one height with two densities, a
+        shallowest sample below the surface without ``extend_to_surface``, a
+        density outside [0, 1000] kg/m^3 or giving an index below ``n_air``,
+        or an unknown relation; the message names the argument, the row (in
+        the caller's order) and the value.
     """
-    zs = _array("z", z, "a 1-D array of heights [m]")
-    rho = _array("density", density, "a 1-D array of densities [kg/m^3]")
-    if zs.ndim != 1 or zs.size < 2:
-        raise ValueError(f"z must be a 1-D array of at least 2 heights [m], got shape {zs.shape}")
-    if rho.shape != zs.shape:
-        raise ValueError(f"density must have the shape of z {zs.shape}, got shape {rho.shape}")
-    n = np.asarray(density_to_index(rho, relation, **kw), dtype=float)
-    bad = np.flatnonzero(np.diff(n) <= 0.0)
-    if bad.size:
-        i = int(bad[0])
-        raise ValueError(f"density must increase strictly with depth (so that the index does), "
-                         f"got {rho[i]!r} kg/m^3 at z = {zs[i]!r} m followed by "
-                         f"{rho[i + 1]!r} kg/m^3 at z = {zs[i + 1]!r} m")
+    n_air = finite_float("n_air", n_air)
+    z_min = finite_float("z_min", z_min)
+    zs, rho_s, rows = table_samples(z, density, "density", " kg/m^3", z_min,
+                                    bool(extend_to_surface))
+    out = np.flatnonzero((rho_s < 0.0) | (rho_s > MAX_DENSITY))
+    if out.size:
+        i = int(out[0])
+        raise SampleError(f"density[{rows[i]}] = {float(rho_s[i])!r} kg/m^3 at z = "
+                          f"{float(zs[i])!r} m is outside [0, {MAX_DENSITY}] kg/m^3 (air to "
+                          f"water; solid ice is {ICE_DENSITY} kg/m^3)", "density", [rows[i]],
+                          "out_of_range")
+    n = np.asarray(density_to_index(rho_s, relation, **kw), dtype=float)
+    low = np.flatnonzero(n < n_air)
+    if low.size:
+        i = int(low[0])
+        raise SampleError(f"density[{rows[i]}] = {float(rho_s[i])!r} kg/m^3 at z = "
+                          f"{float(zs[i])!r} m gives n = {float(n[i])!r}, below n_air "
+                          f"({n_air}); expected n >= n_air", "density", [rows[i]],
+                          "out_of_range")
     info = dict(info or {})
     info.setdefault("density_relation", relation)
-    return TabulatedProfile(zs, n, n_air=n_air, z_min=z_min, info=info)
+    if smoothing_window is not None:
+        window = positive_float("smoothing_window", smoothing_window)
+        # a running mean stays within the range of the samples: still in [0, MAX_DENSITY]
+        # and, the relations rising with density, still n >= n_air
+        n = np.asarray(density_to_index(smooth_samples(zs, rho_s, window), relation, **kw),
+                       dtype=float)
+        info["smoothing"] = {"window_m": window, "quantity": "density",
+                             "method": "running mean of the linearly joined samples"}
+    return TabulatedProfile(zs, n, n_air=n_air, z_min=z_min, info=info,
+                            extend_to_surface=extend_to_surface)
 
 
 def herron_langway_profile(temperature, accumulation, surface_density, z_bottom=-200.0,
@@ -506,16 +535,16 @@ def herron_langway_profile(temperature, accumulation, surface_density, z_bottom=
 
     Returns
     -------
-    firnray.medium.profiles.TabulatedProfile
+    firnray.medium.general_profiles.TabulatedProfile
         Heights 0, -spacing, ..., z_bottom and the index there; ``info``
-        records the model and its parameters.
+        records the model and its parameters.  Where the density has reached
+        the ice density to double precision the index simply stays constant.
 
     Raises
     ------
     ValueError
-        For bad site parameters, ``z_bottom`` >= 0, ``spacing`` <= 0, or a
-        ``z_bottom`` so deep that the density reaches the ice density to
-        double precision (the index then stops increasing).
+        For bad site parameters, ``z_bottom`` >= 0 or below ``z_min``, or
+        ``spacing`` <= 0.
     """
     temperature = finite_float("temperature", temperature)
     accumulation = finite_float("accumulation", accumulation)
@@ -523,6 +552,8 @@ def herron_langway_profile(temperature, accumulation, surface_density, z_bottom=
     z_bottom = finite_float("z_bottom", z_bottom)
     if not z_bottom < 0.0:
         raise ValueError(f"z_bottom must be below the surface (< 0 m), got {z_bottom!r}")
+    if z_bottom < finite_float("z_min", z_min):
+        raise ValueError(f"z_bottom must be >= z_min ({z_min} m), got {z_bottom!r}")
     spacing = positive_float("spacing", spacing)
     count = int(np.floor(-z_bottom / spacing + 1e-9))
     z = -spacing * np.arange(count + 1)
@@ -534,11 +565,6 @@ def herron_langway_profile(temperature, accumulation, surface_density, z_bottom=
     if relation == "looyenga":
         kw.setdefault("ice_density", ice_density)
     n = np.asarray(density_to_index(rho, relation, **kw), dtype=float)
-    if np.any(np.diff(n) <= 0.0):
-        i = int(np.flatnonzero(np.diff(n) <= 0.0)[0])
-        raise ValueError(f"z_bottom = {z_bottom!r} m is too deep for this site: the density "
-                         f"reaches the ice density to double precision near z = {z[i]!r} m; "
-                         f"choose a shallower z_bottom")
     model = {"name": "herron-langway",
             "description": (f"Herron & Langway (1980) firn at {temperature} °C, "
                             f"{accumulation} m w.e./yr, surface density {surface_density} "

@@ -1,16 +1,17 @@
 """Index profiles beyond one exponential: piecewise exponential, tabulated, any function.
 
-All three are monotone (n rises with depth), give ``n_air`` above the surface
-and describe themselves to the ray solver as a :class:`~firnray.medium.panels.PanelStack`:
+Each gives ``n_air`` above the surface and describes itself to the ray solver
+as a :class:`~firnray.medium.panels.PanelStack`:
 
 * ``PiecewiseExponentialProfile``: exponential pieces joined continuously at
-  break heights, each panel solved in closed form;
-* ``TabulatedProfile``: samples (z, n) joined by the monotone piecewise cubic
-  Hermite interpolant of Fritsch & Carlson, held constant below the deepest
-  sample; cubic panels, solved by quadrature;
-* ``FunctionProfile``: any vectorised callable n(z), represented by cubic
-  Hermite panels refined until they match the callable to ``tolerance``;
-  solved by quadrature.
+  break heights, each rising with depth, each panel solved in closed form;
+* ``TabulatedProfile``: samples (z, n) of any finite index >= n_air (density
+  inversions, lenses and constant runs included) joined by the piecewise
+  cubic Hermite interpolant of Fritsch & Carlson, held constant below the
+  deepest sample; cubic panels, solved by quadrature;
+* ``FunctionProfile``: any vectorised callable n(z) >= n_air, represented by
+  cubic Hermite panels refined until they match the callable to
+  ``tolerance``; solved by quadrature.
 """
 
 import hashlib
@@ -18,10 +19,11 @@ import math
 
 import numpy as np
 
-from firnray.checks import finite_float
+from firnray.checks import finite_float, positive_float
 from firnray.medium.panels import (CUBIC, EXPONENTIAL, UNIFORM, PanelStack, evaluate_panels,
                                    hermite_coefficients)
 from firnray.medium.profiles import DEFAULT_Z_MIN, IndexProfile
+from firnray.medium.smoothing import smooth_samples
 
 
 def _check_air(n_air, z_min):
@@ -32,6 +34,122 @@ def _check_air(n_air, z_min):
     if not z_min < 0.0:
         raise ValueError(f"z_min must be below the surface (< 0 m), got {z_min!r}")
     return n_air, z_min
+
+
+class SampleError(ValueError):
+    """A table of samples was refused; the message names the argument, row and value.
+
+    Attributes
+    ----------
+    argument : str
+        The argument at fault (``"z"``, or the name of the values, such as
+        ``"n"`` or ``"density"``).
+    rows : tuple of int
+        The rows concerned, as indices into the caller's arrays (empty when
+        the fault is not in one row: ``"shape"``, ``"too_few"``).
+    reason : str
+        A short code: ``"shape"``, ``"too_few"``, ``"not_finite"``,
+        ``"above_surface"``, ``"duplicate"``, ``"surface_gap"``,
+        ``"below_z_min"`` or ``"out_of_range"``.
+    """
+
+    def __init__(self, message, argument, rows=(), reason=""):
+        super().__init__(message)
+        self.argument = argument
+        self.rows = tuple(int(r) for r in rows)
+        self.reason = reason
+
+
+def table_samples(z, values, value_name="n", value_unit="", z_min=DEFAULT_Z_MIN,
+                  extend_to_surface=False):
+    """Checked table samples sorted by height, surface first, exact duplicates dropped.
+
+    Parameters
+    ----------
+    z : array_like, shape (K,)
+        Sample heights [m], in any order, all <= 0.
+    values : array_like, shape (K,)
+        Sample values [``value_unit``].
+    value_name : str, optional
+        Name of ``values`` in error messages.
+    value_unit : str, optional
+        Unit of ``values`` in error messages (for example ``" kg/m^3"``).
+    z_min : float, optional
+        Lowest valid height [m]; a deeper sample is refused.
+    extend_to_surface : bool, optional
+        Accept a shallowest sample below the surface (z < 0); otherwise refused.
+
+    Returns
+    -------
+    z_sorted : ndarray
+        Distinct heights, strictly decreasing [m].
+    values_sorted : ndarray
+        Values at those heights [``value_unit``].
+    rows : ndarray of int
+        Row of the caller's arrays each sorted sample comes from.
+
+    Raises
+    ------
+    SampleError
+        (a ``ValueError``) for arrays of different shape or fewer than two
+        distinct heights, a non-finite value, a height above the surface,
+        one height with two different values, a shallowest sample below the
+        surface without ``extend_to_surface``, or a sample below ``z_min``;
+        the message names the argument, the row (index in the caller's
+        order) and the value.
+    """
+    v, u = value_name, value_unit
+    arrays = []
+    for name, arr in (("z", z), (v, values)):
+        try:
+            arrays.append(np.asarray(arr, dtype=float))
+        except (TypeError, ValueError):
+            raise SampleError(f"{name} must be a 1-D array of numbers, got {arr!r}", name,
+                              reason="shape") from None
+    zz = arrays[0] + 0.0        # + 0.0: a height of -0.0 reads 0.0
+    vv = arrays[1]
+    if zz.ndim != 1 or vv.ndim != 1 or zz.size != vv.size:
+        raise SampleError(f"z and {v} must be 1-D arrays of the same length, got shapes "
+                          f"{zz.shape} and {vv.shape}", "z", reason="shape")
+    for name, arr in (("z", zz), (v, vv)):
+        bad = np.flatnonzero(~np.isfinite(arr))
+        if bad.size:
+            k = int(bad[0])
+            raise SampleError(f"{name}[{k}] must be finite, got {float(arr[k])!r} (row {k}: "
+                              f"z = {float(zz[k])!r} m, {v} = {float(vv[k])!r}{u})", name, [k],
+                              "not_finite")
+    above = np.flatnonzero(zz > 0.0)
+    if above.size:
+        k = int(above[0])
+        raise SampleError(f"z[{k}] = {float(zz[k])!r} m lies above the surface (a depth of "
+                          f"{float(-zz[k])!r} m); expected heights <= 0 m (0 is the snow "
+                          f"surface, a depth d is z = -d)", "z", [k], "above_surface")
+    order = np.argsort(-zz, kind="stable")
+    zs, vs = zz[order], vv[order]
+    same = np.flatnonzero(np.diff(zs) == 0.0)
+    differ = same[vs[same] != vs[same + 1]]
+    if differ.size:
+        i, j = sorted((int(order[differ[0]]), int(order[differ[0] + 1])))
+        raise SampleError(f"rows {i} and {j} have the same height z = {float(zz[i])!r} m but "
+                          f"different values {v}[{i}] = {float(vv[i])!r}{u} and {v}[{j}] = "
+                          f"{float(vv[j])!r}{u}; expected one value per height (exact duplicate "
+                          f"rows are dropped)", "z", [i, j], "duplicate")
+    keep = np.concatenate([[True], np.diff(zs) != 0.0])
+    zs, vs, rows = zs[keep], vs[keep], order[keep]
+    if zs.size < 2:
+        raise SampleError(f"z and {v} need samples at 2 or more distinct heights, got "
+                          f"{zs.size} (z = {zs.tolist()!r} m)", "z", (), "too_few")
+    if zs[0] < 0.0 and not extend_to_surface:
+        k = int(rows[0])
+        raise SampleError(f"the shallowest sample z[{k}] = {float(zs[0])!r} m lies below the "
+                          f"surface; expected a sample at z = 0, or pass "
+                          f"extend_to_surface=True to hold {v}[{k}] = {float(vs[0])!r}{u} constant "
+                          f"up to the surface", "z", [k], "surface_gap")
+    if zs[-1] < z_min:
+        k = int(rows[-1])
+        raise SampleError(f"the deepest sample z[{k}] = {float(zs[-1])!r} m lies below z_min "
+                          f"({z_min} m); expected heights >= z_min", "z", [k], "below_z_min")
+    return zs, vs, rows
 
 
 class _PanelProfile(IndexProfile):
@@ -154,7 +272,10 @@ class PiecewiseExponentialProfile(_PanelProfile):
         for k in range(m):
             if not deep[k] >= n_top * (1.0 - 1e-15):
                 raise ValueError(f"n_deep[{k}] must be >= the index at the top of piece {k} "
-                                 f"({n_top!r}) so that n rises with depth, got {deep[k]!r}")
+                                 f"({n_top!r}) so that n rises with depth in every piece, got "
+                                 f"{deep[k]!r}; firn whose index falls with depth somewhere "
+                                 f"(inversions, lenses) goes in a TabulatedProfile or a "
+                                 f"FunctionProfile")
             d = max(deep[k] - n_top, 0.0)
             coef[k] = (deep[k], scale[k], n_top, d)
             kind[k] = EXPONENTIAL if d > 0.0 else UNIFORM
@@ -235,90 +356,134 @@ def pchip_slopes(x, y):
 
 
 class TabulatedProfile(_PanelProfile):
-    """Index samples joined by a monotone cubic interpolant (rays by quadrature).
+    """Index samples joined by a shape-preserving cubic interpolant (rays by quadrature).
+
+    Any finite index n >= n_air is accepted: n may rise and fall with depth
+    (density inversions, dense lenses) or stay constant over a run of
+    samples (deep ice repeating one value).
 
     Parameters
     ----------
     z : array_like, shape (K,)
-        Sample heights [m], strictly decreasing from 0 (the first sample is the
-        surface), K >= 2.
+        Sample heights [m], <= 0, in any order: surface-first and
+        deepest-first tables give the same profile, because the samples are
+        sorted by height (descending) internally.  Rows repeated exactly
+        (same z, same n) are dropped; one height with two different values is
+        refused.  At least 2 distinct heights.
     n : array_like, shape (K,)
-        Index at each sample [1], strictly increasing with depth, n[0] > n_air.
+        Index at each sample [1], finite, >= n_air.
     n_air : float, optional
         Index above the surface [1] (default 1.0).
     z_min : float, optional
         Lowest valid height [m] (default -5000 m); below the deepest sample
-        the index stays at ``n[-1]``.
+        the index stays at its value there.
     info : dict, optional
         Name, description and source of the samples.
+    extend_to_surface : bool, optional
+        If the shallowest sample lies below the surface (z < 0): False
+        (default) refuses the table; True holds the shallowest value constant
+        from that sample up to z = 0 (one uniform panel on top).
+    smoothing_window : float or None, optional
+        Full width [m] of a running mean applied to the index samples before
+        interpolation (:func:`firnray.medium.smoothing.smooth_samples`), or
+        None (default) for no smoothing.  When given, ``info`` records it
+        under ``"smoothing"`` and ``n_unsmoothed`` keeps the samples as given.
+
+    Attributes
+    ----------
+    z : ndarray
+        The distinct sample heights, surface first [m].
+    n : ndarray
+        The index the interpolant passes through at ``z`` (smoothed when
+        ``smoothing_window`` is given) [1].
+    n_unsmoothed : ndarray
+        The index samples at ``z`` as given [1].
+    slopes : ndarray
+        dn/dz at the samples [1/m].
+
+    Raises
+    ------
+    ValueError
+        (``SampleError``) for one row, arrays of different shape, NaN or inf
+        anywhere, a height above the surface (z > 0), an index below
+        ``n_air``, one height with two different indices, a shallowest sample
+        below the surface without ``extend_to_surface``, or a sample below
+        ``z_min``; the message names the argument, the row (index in the
+        caller's order) and the value.
 
     Notes
     -----
     Between samples the index follows the piecewise cubic Hermite interpolant
-    with the knot slopes of :func:`pchip_slopes` (continuous n and dn/dz,
-    monotone, no overshoot).  Below the deepest sample n is held at its last
-    value, so dn/dz jumps to zero there.
+    with the knot slopes of :func:`pchip_slopes`, the interpolant of scipy's
+    ``PchipInterpolator``: n and dn/dz are continuous, and the slope is zero
+    at every local extremum of the data (and on each side of a constant
+    run), so the curve never overshoots the samples: between two samples it
+    stays within their range, and an inversion in the data is an inversion of
+    the same depth in the profile, no deeper.  Below the deepest sample n is
+    held at its last value, so dn/dz jumps to zero there.
     """
 
-    def __init__(self, z, n, n_air=1.0, z_min=DEFAULT_Z_MIN, info=None):
+    def __init__(self, z, n, n_air=1.0, z_min=DEFAULT_Z_MIN, info=None,
+                 extend_to_surface=False, smoothing_window=None):
         self.n_air, self.z_min = _check_air(n_air, z_min)
-        zz = np.asarray(z, dtype=float)
-        nn = np.asarray(n, dtype=float)
-        if zz.ndim != 1 or nn.ndim != 1 or zz.size != nn.size or zz.size < 2:
-            raise ValueError(f"z and n must be 1-D arrays of the same length >= 2, got shapes "
-                             f"{zz.shape} and {nn.shape}")
-        for name, arr in (("z", zz), ("n", nn)):
-            bad = np.flatnonzero(~np.isfinite(arr))
-            if bad.size:
-                raise ValueError(f"{name}[{bad[0]}] must be finite, got {arr[bad[0]]!r}")
-        if zz[0] != 0.0:
-            raise ValueError(f"z[0] must be 0 (the first sample is the surface), got {zz[0]!r}")
-        step = np.flatnonzero(np.diff(zz) >= 0.0)
-        if step.size:
-            k = step[0] + 1
-            raise ValueError(f"z must be strictly decreasing (depths sorted from the surface "
-                             f"down): z[{k}] = {zz[k]!r} is not below z[{k - 1}] = {zz[k - 1]!r}")
-        rise = np.flatnonzero(np.diff(nn) <= 0.0)
-        if rise.size:
-            k = rise[0] + 1
-            raise ValueError(f"n must be strictly increasing with depth: n[{k}] = {nn[k]!r} at "
-                             f"z = {zz[k]!r} m is not above n[{k - 1}] = {nn[k - 1]!r}")
-        if not nn[0] > self.n_air:
-            raise ValueError(f"n[0] (the surface index) must be greater than n_air "
-                             f"({self.n_air}), got {nn[0]!r}")
-        if zz[-1] < self.z_min:
-            raise ValueError(f"the deepest sample z[-1] = {zz[-1]!r} m lies below z_min "
-                             f"({self.z_min} m)")
-        self.z = zz.copy()
-        self.n = nn.copy()
-        slopes = pchip_slopes(zz[::-1], nn[::-1])[::-1]
-        coef = np.vstack([hermite_coefficients(zz, nn, slopes), [[nn[-1], 0.0, 0.0, 0.0]]])
-        kind = np.concatenate([np.full(zz.size - 1, CUBIC), [UNIFORM]])
+        zs, ns, rows = table_samples(z, n, "n", "", self.z_min, bool(extend_to_surface))
+        low = np.flatnonzero(ns < self.n_air)
+        if low.size:
+            k = int(rows[low[0]])
+            raise SampleError(f"n[{k}] = {float(ns[low[0]])!r} at z = {float(zs[low[0]])!r} m is "
+                              f"below n_air "
+                              f"({self.n_air}); expected n >= n_air", "n", [k], "out_of_range")
+        info = dict(info or {})
+        self.n_unsmoothed = ns.copy()
+        if smoothing_window is not None:
+            window = positive_float("smoothing_window", smoothing_window)
+            ns = smooth_samples(zs, ns, window)
+            info["smoothing"] = {"window_m": window, "quantity": "index",
+                                 "method": "running mean of the linearly joined samples"}
+        self.z = zs
+        self.n = ns
+        self.extend_to_surface = bool(extend_to_surface)
+        slopes = pchip_slopes(zs[::-1], ns[::-1])[::-1]
+        coef = np.vstack([hermite_coefficients(zs, ns, slopes), [[ns[-1], 0.0, 0.0, 0.0]]])
+        kind = np.concatenate([np.full(zs.size - 1, CUBIC), [UNIFORM]])
+        top = zs
+        if zs[0] < 0.0:
+            # the shallowest value held constant up to the surface
+            coef = np.vstack([[[ns[0], 0.0, 0.0, 0.0]], coef])
+            kind = np.concatenate([[UNIFORM], kind])
+            top = np.concatenate([[0.0], zs])
+            info.setdefault("extended_to_surface_from_m", float(zs[0]))
         self.slopes = slopes
-        self.panels = PanelStack(zz, np.concatenate([zz[1:], [-np.inf]]), kind, coef)
-        self.info = dict(info or {})
+        self.panels = PanelStack(top, np.concatenate([top[1:], [-np.inf]]), kind, coef)
+        self.info = info
 
     def __repr__(self):
         digest = hashlib.sha256(self.z.tobytes() + self.n.tobytes()).hexdigest()[:12]
-        return (f"TabulatedProfile({self.z.size} samples from z = 0 to {float(self.z[-1])!r} m, "
-                f"n = {float(self.n[0])!r} .. {float(self.n[-1])!r}, n_air={self.n_air!r}, "
-                f"z_min={self.z_min!r}, samples sha256 {digest})")
+        return (f"TabulatedProfile({self.z.size} samples from z = {float(self.z[0])!r} to "
+                f"{float(self.z[-1])!r} m, n = {float(np.min(self.n))!r} .. "
+                f"{float(np.max(self.n))!r}, n_air={self.n_air!r}, z_min={self.z_min!r}, "
+                f"samples sha256 {digest})")
 
 
 #: Default largest deviation of the panel representation from the callable [1].
 FUNCTION_TOLERANCE = 1e-10
 #: Most panels a FunctionProfile may use.
 MAX_FUNCTION_PANELS = 20000
+#: Default spacing of the probe grid on which a FunctionProfile checks its panels [m].
+FUNCTION_PROBE_SPACING = 0.5
+#: Most probe points a FunctionProfile may use.
+MAX_FUNCTION_PROBES = 2_000_000
 
 
 class FunctionProfile(_PanelProfile):
-    """Any monotone index function n(z) (rays by quadrature).
+    """Any index function n(z) >= n_air, monotone or not (rays by quadrature).
 
     Parameters
     ----------
     index : callable
         Maps an array of heights z <= 0 [m] to an array of indices [1] of the
-        same shape; n must not decrease with depth and must exceed n_air.
+        same shape; n must be finite and >= n_air.  It may rise and fall with
+        depth.
     n_air : float, optional
         Index above the surface [1] (default 1.0).
     z_min : float, optional
@@ -328,26 +493,35 @@ class FunctionProfile(_PanelProfile):
         ``index`` (default 1e-10).
     info : dict, optional
         Name and description.
+    probe_spacing : float, optional
+        Spacing [m] of the uniform grid from 0 to ``z_min`` on which the
+        panels are also compared with ``index`` (default 0.5 m): features of
+        n(z) narrower than about this spacing may be missed.
 
     Notes
     -----
     The solver cannot call Python inside its compiled loops, so the function
     is represented by cubic Hermite panels: knot values from ``index``, knot
-    slopes by a fourth-order finite difference, panels halved until the cubic
-    matches ``index`` at t = 1/4, 1/2, 3/4 of every panel within
-    ``tolerance`` (``max_deviation`` holds the largest deviation seen).
-    ``index(z)`` of this object calls the function itself.
+    slopes by a fourth-order finite difference.  The function is first
+    evaluated on the probe grid; every panel is then halved until the cubic
+    matches ``index`` within ``tolerance`` at t = 1/4, 1/2, 3/4 of the panel
+    and at every probe point inside it (``max_deviation`` holds the largest
+    deviation seen), so a narrow dip or bump between the initial knots is
+    found and resolved.  ``index(z)`` of this object calls the function
+    itself.
 
     Raises
     ------
     ValueError
-        If ``index`` is not callable, returns the wrong shape or non-finite
-        values, decreases with depth, or cannot be represented within
-        ``tolerance`` by MAX_FUNCTION_PANELS panels.
+        If ``index`` is not callable, raises (the message names the first
+        height where it fails, when a height-by-height retry finds one),
+        returns the wrong shape, non-finite values or values below ``n_air``
+        (the height is named), or cannot be represented within ``tolerance``
+        by MAX_FUNCTION_PANELS panels.
     """
 
     def __init__(self, index, n_air=1.0, z_min=DEFAULT_Z_MIN, tolerance=FUNCTION_TOLERANCE,
-                 info=None):
+                 info=None, probe_spacing=FUNCTION_PROBE_SPACING):
         if not callable(index):
             raise ValueError(f"index must be a callable mapping heights [m] to indices, "
                              f"got {index!r}")
@@ -355,19 +529,36 @@ class FunctionProfile(_PanelProfile):
         tol = finite_float("tolerance", tolerance)
         if not tol > 0.0:
             raise ValueError(f"tolerance must be > 0, got {tolerance!r}")
+        spacing = positive_float("probe_spacing", probe_spacing)
+        count = int(math.ceil(-self.z_min / spacing)) + 1
+        if count > MAX_FUNCTION_PROBES:
+            raise ValueError(f"probe_spacing = {probe_spacing!r} m needs {count} probe points "
+                             f"down to z_min = {self.z_min} m; expected at most "
+                             f"{MAX_FUNCTION_PROBES} (a larger spacing or a shallower z_min)")
         self.function = index
         self.tolerance = tol
+        self.probe_spacing = spacing
+        z_probe = np.maximum(-spacing * np.arange(count), self.z_min)
+        n_probe = self._call(z_probe)
+        self._check_air_index(z_probe, n_probe)
         knots = self._initial_knots()
+        t = np.array([0.25, 0.5, 0.75])
         for _ in range(60):
             n, slope = self._values(knots)
             coef = hermite_coefficients(knots, n, slope)
-            t = np.array([0.25, 0.5, 0.75])
             zc = knots[1:, None] + (knots[:-1] - knots[1:])[:, None] * t[None, :]
             cubic = coef[:, :1] + t * (coef[:, 1:2] + t * (coef[:, 2:3] + t * coef[:, 3:4]))
             truth = self._call(zc.ravel()).reshape(zc.shape)
-            self._check_monotone(np.concatenate([knots, zc.ravel()]),
-                                 np.concatenate([n, truth.ravel()]))
+            self._check_air_index(np.concatenate([knots, zc.ravel()]),
+                                  np.concatenate([n, truth.ravel()]))
             err = np.max(np.abs(cubic - truth), axis=1)
+            # the probe points inside each panel (top[k] >= z > top[k+1])
+            k = np.clip(np.searchsorted(-knots, -z_probe, side="right") - 1, 0, knots.size - 2)
+            tp = (z_probe - knots[k + 1]) / (knots[k] - knots[k + 1])
+            c = coef[k]
+            probe_err = np.abs(c[:, 0] + tp * (c[:, 1] + tp * (c[:, 2] + tp * c[:, 3]))
+                               - n_probe)
+            np.maximum.at(err, k, probe_err)
             bad = err > tol
             if not bad.any():
                 break
@@ -375,14 +566,12 @@ class FunctionProfile(_PanelProfile):
                 worst = int(np.argmax(err))
                 raise ValueError(f"index cannot be represented within tolerance {tol!r} by "
                                  f"{MAX_FUNCTION_PANELS} panels (deviation {err[worst]:.3g} near "
-                                 f"z = {knots[worst]:.6g} m); is it smooth and monotone?")
+                                 f"z = {knots[worst]:.6g} m); is it smooth?")
             mid = 0.5 * (knots[:-1] + knots[1:])[bad]
             knots = np.sort(np.concatenate([knots, mid]))[::-1]
         else:
             raise ValueError(f"index cannot be represented within tolerance {tol!r}")
         self.max_deviation = float(err.max())
-        if not n[0] > self.n_air:
-            raise ValueError(f"index(0) must be greater than n_air ({self.n_air}), got {n[0]!r}")
         bottoms = np.concatenate([knots[1:], [-np.inf]])
         # below z_min (never used by a ray) the index stays at its value there
         self.panels = PanelStack(np.concatenate([knots[:-1], [knots[-1]]]), bottoms,
@@ -395,18 +584,30 @@ class FunctionProfile(_PanelProfile):
         deep = -np.geomspace(200.0, -self.z_min, 12) if -self.z_min > 200.0 else np.empty(0)
         return np.unique(np.concatenate([shallow, deep, [self.z_min]]))[::-1]
 
+    def _first_failure(self, z):
+        """The first height [m] at which the function raises when called alone, or None."""
+        for value in np.ravel(z):
+            try:
+                self.function(np.array([value]))
+            except Exception:
+                return float(value)
+        return None
+
     def _call(self, z):
         try:
             out = np.asarray(self.function(np.asarray(z, dtype=float)), dtype=float)
         except Exception as err:
-            raise ValueError(f"index raised {type(err).__name__}: {err}") from err
+            where = self._first_failure(z)
+            at = (f"first failing at z = {where!r} m" if where is not None else
+                  "no single height fails alone: is it vectorised over an array of heights?")
+            raise ValueError(f"index raised {type(err).__name__}: {err} ({at})") from err
         if out.shape != np.shape(z):
             raise ValueError(f"index must return an array of the shape of its input "
                              f"{np.shape(z)}, got {out.shape}")
         bad = np.flatnonzero(~np.isfinite(out))
         if bad.size:
-            raise ValueError(f"index returned {out.flat[bad[0]]!r} at z = "
-                             f"{np.ravel(z)[bad[0]]!r} m; expected a finite index")
+            raise ValueError(f"index returned {float(out.flat[bad[0]])!r} at z = "
+                             f"{float(np.ravel(z)[bad[0]])!r} m; expected a finite index")
         return out
 
     def _values(self, knots):
@@ -426,14 +627,12 @@ class FunctionProfile(_PanelProfile):
                            + 3.0 * g[3]) / (12.0 * h)
         return n, slope
 
-    def _check_monotone(self, z, n):
-        order = np.argsort(-z)
-        zs, ns = z[order], n[order]
-        drop = np.flatnonzero(np.diff(ns) < -1e-12)
-        if drop.size:
-            k = drop[0]
-            raise ValueError(f"index must not decrease with depth: n({zs[k + 1]:.6g} m) = "
-                             f"{ns[k + 1]!r} < n({zs[k]:.6g} m) = {ns[k]!r}")
+    def _check_air_index(self, z, n):
+        low = np.flatnonzero(n < self.n_air)
+        if low.size:
+            k = low[np.argmax(z[low])]
+            raise ValueError(f"index must be >= n_air ({self.n_air}) everywhere, got "
+                             f"{float(n[k])!r} at z = {float(z[k])!r} m")
 
     def index(self, z):
         """Refractive index at height ``z`` [m] from the function (scalar or array) [1]."""
@@ -451,6 +650,8 @@ class FunctionProfile(_PanelProfile):
 class PanelProfile(_PanelProfile):
     """A profile given directly as its panel stack (as stored in lookup tables).
 
+    The stack may describe any finite index >= n_air, monotone or not.
+
     Parameters
     ----------
     top : array_like, shape (M,)
@@ -466,6 +667,14 @@ class PanelProfile(_PanelProfile):
         Lowest valid height [m].
     info : dict, optional
         Metadata.
+
+    Raises
+    ------
+    ValueError
+        For tops that do not start at 0 or do not decrease strictly, an
+        unknown kind code, coefficients of the wrong shape or not finite, or
+        a panel whose index falls below ``n_air`` (its lowest value, at an
+        end or at an interior extremum of a cubic, is checked).
     """
 
     def __init__(self, top, kind, coef, n_air=1.0, z_min=DEFAULT_Z_MIN, info=None):
@@ -480,10 +689,51 @@ class PanelProfile(_PanelProfile):
         if c.shape != (t.size, 4) or not np.all(np.isfinite(c)):
             raise ValueError(f"coef must be a finite ({t.size}, 4) array, got shape {c.shape}")
         self.panels = PanelStack(t, np.concatenate([t[1:], [-np.inf]]), k, c)
-        if np.any(np.diff(self.panels.n_top) < -1e-12):
-            raise ValueError("the panels must give an index that does not decrease with depth")
+        z_low, n_low = _panel_minima(self.panels)
+        below = np.flatnonzero(n_low < self.n_air)
+        if below.size:
+            j = int(below[0])
+            raise ValueError(f"the panels must give an index >= n_air ({self.n_air}); panel {j} "
+                             f"reaches {float(n_low[j])!r} at z = {float(z_low[j])!r} m")
         self.info = dict(info or {})
 
     def __repr__(self):
         return (f"PanelProfile({len(self.panels)} panels, n_air={self.n_air!r}, "
                 f"z_min={self.z_min!r})")
+
+
+def _panel_minima(stack):
+    """Lowest index of each panel [1] and a height where it is reached [m].
+
+    Exponential and uniform panels are monotone, so their ends bound them
+    (the limit ``a`` for an exponential panel reaching to -inf); a cubic
+    panel is also checked at the interior zeros of its derivative.
+    """
+    top, bottom, kind, coef = stack.top, stack.bottom, stack.kind, stack.coef
+    z_best = top.copy()
+    n_best = stack.n_top.copy()
+    for j in range(top.size):
+        val, z_at = n_best[j], z_best[j]
+        if kind[j] == EXPONENTIAL:
+            a, s, _, d = coef[j]
+            if np.isfinite(bottom[j]):
+                val, z_at = a - d * math.exp((bottom[j] - top[j]) / s), bottom[j]
+            else:
+                val, z_at = a, -np.inf
+        elif kind[j] == CUBIC and np.isfinite(bottom[j]):
+            c0, c1, c2, c3 = coef[j]
+            cand = [0.0]
+            if c3 != 0.0:
+                disc = 4.0 * c2 * c2 - 12.0 * c3 * c1
+                if disc >= 0.0:
+                    r = math.sqrt(disc)
+                    cand += [(-2.0 * c2 + r) / (6.0 * c3), (-2.0 * c2 - r) / (6.0 * c3)]
+            elif c2 != 0.0:
+                cand.append(-c1 / (2.0 * c2))
+            cand = [u for u in cand if 0.0 <= u <= 1.0]
+            vals = [c0 + u * (c1 + u * (c2 + u * c3)) for u in cand]
+            i = int(np.argmin(vals))
+            val, z_at = vals[i], bottom[j] + cand[i] * (top[j] - bottom[j])
+        if val < n_best[j]:
+            n_best[j], z_best[j] = val, z_at
+    return z_best, n_best
