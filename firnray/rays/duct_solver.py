@@ -571,10 +571,14 @@ def solve_pairs_duct(prof, aux, n_air, x_target, z_src, z_rcv, out, kinds, conv,
     n_chunks = (n + CHUNK - 1) // CHUNK
     rows = n_scan + 2 * LOG_STEPS + 4
     width = max(rows, aux[1][0].shape[0] + 4)
+    # the parallel loop takes arrays, not a tuple of arrays: unpack and rebuild
+    p_min, minima = aux
+    mz, mn, mc, mh = minima
     for c in numba.prange(n_chunks):
         scratch = np.empty((6 + rows, max(width, 13)))
+        aux_c = (p_min, (mz, mn, mc, mh))
         for i in range(c * CHUNK, min(n, (c + 1) * CHUNK)):
-            solve_row_duct(i, prof, aux, n_air, x_target, z_src, z_rcv, out, kinds, conv, count,
+            solve_row_duct(i, prof, aux_c, n_air, x_target, z_src, z_rcv, out, kinds, conv, count,
                            n_scan, scratch)
 
 
