@@ -288,7 +288,7 @@ def panel_above(prof, z):
 
 
 @lean_kernel
-def _sub_leg(prof, b, n_ref, p, za, zb, low_mode, high_mode):
+def _sub_leg(prof, b, n_ref, p, za, zb, low_mode, high_mode, full):
     """X, L, c T of the leg za -> zb whose ends are regular (0), turning points
     (TURNING) or soft minima (SOFT)."""
     top, bottom, kind = prof[0], prof[1], prof[2]
@@ -311,7 +311,7 @@ def _sub_leg(prof, b, n_ref, p, za, zb, low_mode, high_mode):
     if high_mode != 0 and hi_end > lo_end:
         k = find_panel(top, zb)
         if high_mode == TURNING and kind[k] != CUBIC:
-            dx, dl, dt, dd = segment(prof, b, n_ref, p, lo_end, zb, True, False, True)
+            dx, dl, dt, dd = segment(prof, b, n_ref, p, lo_end, zb, True, False, full)
             return x + dx, ln + dl, ct + dt
         if kind[k] == CUBIC:
             z_cut = max(bottom[k], lo_end)
@@ -321,7 +321,7 @@ def _sub_leg(prof, b, n_ref, p, za, zb, low_mode, high_mode):
             ct += dt
             hi_end = z_cut
     if hi_end > lo_end:
-        dx, dl, dt, dd = segment(prof, b, n_ref, p, lo_end, hi_end, False, False, True)
+        dx, dl, dt, dd = segment(prof, b, n_ref, p, lo_end, hi_end, False, False, full)
         x += dx
         ln += dl
         ct += dt
@@ -346,14 +346,15 @@ def thin_turning_leg(prof, b, z_turn, height):
 
 
 @lean_kernel
-def leg(prof, minima, b, n_ref, p, z1, z2, low_mode, high_mode):
+def leg(prof, minima, b, n_ref, p, z1, z2, low_mode, high_mode, full=True):
     """X [m], L [m] and c T [m] of a ray leg from z1 up to z2 (monotone in z).
 
     ``low_mode`` / ``high_mode``: 0 for a regular end, TURNING where the leg
     ends at a turning point, SOFT where the ray is nearly level there.  The
     leg is also cut at every local minimum of n inside it that the ray passes
     nearly level (``SOFT_SCALE``); ``minima`` = (z, n, curvature, panel height)
-    of the profile's local minima, highest first.
+    of the profile's local minima, highest first.  Without ``full`` only X is
+    complete (the block series of ``segment`` skip L and c T).
     """
     if not z2 > z1:
         return 0.0, 0.0, 0.0
@@ -377,11 +378,11 @@ def leg(prof, minima, b, n_ref, p, z1, z2, low_mode, high_mode):
         w2c = (mn[i] - b) * (mn[i] + b)
         if not w2c < (SOFT_SCALE * mh[i]) ** 2 * mn[i] * mcurv[i]:
             continue
-        dx, dl, dt = _sub_leg(prof, b, n_ref, p, za, zc, low_mode, SOFT)
+        dx, dl, dt = _sub_leg(prof, b, n_ref, p, za, zc, low_mode, SOFT, full)
         x += dx
         ln += dl
         ct += dt
         za = zc
         low_mode = SOFT
-    dx, dl, dt = _sub_leg(prof, b, n_ref, p, za, z2, low_mode, high_mode)
+    dx, dl, dt = _sub_leg(prof, b, n_ref, p, za, z2, low_mode, high_mode, full)
     return x + dx, ln + dl, ct + dt

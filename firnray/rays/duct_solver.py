@@ -39,15 +39,16 @@ from firnray.constants import SPEED_OF_LIGHT
 from firnray.rays import exponential_solver as es
 from firnray.rays.duct_kernels import SOFT, TURNING, crossing_down, crossing_up, leg
 from firnray.rays.exponential_kernels import KERNEL_OPTIONS
-from firnray.rays.panel_kernels import find_panel, index_at, lean_kernel, panel_level
-from firnray.rays.panel_solver import solve_air_ice
+from firnray.rays.panel_kernels import UNIFORM, find_panel, index_at, lean_kernel
+from firnray.rays.panel_solver import horizontal_straight, solve_air_ice
 
 #: An end point where w^2 < NEAR_LEVEL n^2 (within about 6 degrees of level) is a soft end.
 NEAR_LEVEL = 0.01
 #: Default number of Chebyshev scan intervals per piece of b.
-SCAN = 16
-#: Geometric steps towards each divergent end of a piece (factor 10 each).
-LOG_STEPS = 12
+SCAN = 12
+#: Geometric scan points towards each divergent end of a piece (1e-2 to 1e-13 of
+#: its width; near such an end X ~ -C log|b - b_c| grows monotonically).
+LOG_STEPS = 6
 #: Default most rays kept per pair.
 MAX_SLOTS = 64
 #: Kind code of a ray with two or more turning points and no surface reflection.
@@ -57,8 +58,9 @@ GOLDEN = 0.3819660112501051
 
 
 @lean_kernel
-def legs(prof, aux, b, z_lo, z_hi, n_hi, state):
-    """Fill ``state`` with the three legs at invariant b.
+def legs(prof, aux, b, z_lo, z_hi, n_hi, state, need=2, full=True):
+    """Fill ``state`` with the legs at invariant b: a only (need 0), a and U
+    (1), or all three (2); without ``full`` only the X columns are complete.
 
     state[0:3] = a (X, L, c T), [3:6] = U, [6:9] = D, [9] upper edge height
     [m] (0 for the surface), [10] 1 if the top is the surface, [11] lower
@@ -70,25 +72,29 @@ def legs(prof, aux, b, z_lo, z_hi, n_hi, state):
     # an end point the ray passes nearly level gets the substitution of a soft end
     soft_lo = SOFT if (n_lo - b) * (n_lo + b) < NEAR_LEVEL * n_lo * n_lo else 0
     soft_hi = SOFT if p * p < NEAR_LEVEL * n_hi * n_hi else 0
-    r = leg(prof, minima, b, n_hi, p, z_lo, z_hi, soft_lo, soft_hi)
+    r = leg(prof, minima, b, n_hi, p, z_lo, z_hi, soft_lo, soft_hi, full)
     state[0], state[1], state[2] = r[0], r[1], r[2]
+    if need == 0:
+        return
     k_t, z_t = crossing_up(prof, p_min, z_hi, b)
     if k_t < 0:
-        r = leg(prof, minima, b, n_hi, p, z_hi, 0.0, 0, 0)
+        r = leg(prof, minima, b, n_hi, p, z_hi, 0.0, 0, 0, full)
         state[9] = 0.0
         state[10] = 1.0
     else:
-        r = leg(prof, minima, b, n_hi, p, z_hi, z_t, 0, TURNING)
+        r = leg(prof, minima, b, n_hi, p, z_hi, z_t, 0, TURNING, full)
         state[9] = z_t
         state[10] = 0.0
     state[3], state[4], state[5] = r[0], r[1], r[2]
+    if need == 1:
+        return
     k_b, z_b = crossing_down(prof, p_min, z_lo, b)
     if k_b < 0:
         state[6], state[7], state[8] = math.inf, math.inf, math.inf
         state[11] = -math.inf
         state[12] = 0.0
     else:
-        r = leg(prof, minima, b, n_hi, p, z_b, z_lo, TURNING, soft_lo)
+        r = leg(prof, minima, b, n_hi, p, z_b, z_lo, TURNING, soft_lo, full)
         state[6], state[7], state[8] = r[0], r[1], r[2]
         state[11] = z_b
         state[12] = 1.0
@@ -109,7 +115,8 @@ def combine(state, col, e_u, e_d, j):
 def family_f(prof, aux, geo, b, e_u, e_d, j, state):
     """X - x_target [m] of family (e_u, e_d, j) at b."""
     z_lo, z_hi, n_hi, x_target = geo
-    legs(prof, aux, b, z_lo, z_hi, n_hi, state)
+    need = 2 if (e_d > 0 or j > 0) else (1 if e_u > 0 else 0)
+    legs(prof, aux, b, z_lo, z_hi, n_hi, state, need, False)
     return combine(state, 0, e_u, e_d, j) - x_target
 
 
@@ -180,12 +187,29 @@ def extremum(prof, aux, geo, e_u, e_d, j, sign, t_a, t_b, t0, f0, state):
     fx = fw = fv = -sign * f0
     d = 0.0
     e = 0.0
+    evaluations = 0
     for _ in range(MAX_ITER):
         m = 0.5 * (a + bb)
         tol1 = 1e-11 * abs(x) + 1e-15
         tol2 = 2.0 * tol1
         if abs(x - m) <= tol2 - 0.5 * (bb - a) or fx < 0.0:
             break
+        if x != w and w != v and x != v:
+            # the parabola through the three best points: once its vertex lies
+            # on the wrong side by more than ten times its distance from the best
+            # value, the extremum cannot cross zero
+            r1 = (x - w) * (fx - fv)
+            q1 = (x - v) * (fx - fw)
+            den = 2.0 * (q1 - r1)
+            if den != 0.0:
+                t_v = x - ((x - v) * q1 - (x - w) * r1) / den
+                if (t_v - a) * (t_v - bb) < 0.0:
+                    # vertex value of the parabola
+                    c2 = ((fw - fx) / (w - x) - (fv - fx) / (v - x)) / (w - v)
+                    f_v = fx - c2 * (t_v - x) ** 2 if c2 != 0.0 else fx
+                    if f_v > 0.0 and fx - f_v < 0.1 * f_v and evaluations >= 4:
+                        break
+        evaluations += 1
         parabolic = False
         if abs(e) > tol1:
             r = (x - w) * (fx - fv)
@@ -295,6 +319,13 @@ def breakpoints(prof, aux, z_lo, z_hi, n_lo, n_hi, vals, div):
 
 
 @lean_kernel
+def log_offset(i):
+    """Relative distance of geometric scan point i from a divergent end: from
+    1e-2 down to 1e-13 in LOG_STEPS equal steps of log10."""
+    return 10.0 ** (-2.0 - 11.0 * i / (LOG_STEPS - 1))
+
+
+@lean_kernel
 def sample_piece(b_a, b_b, div_a, div_b, n_scan, bs):
     """Scan points of the piece (b_a, b_b): Chebyshev points inside, the ends
     approached to 1e-12 of the width (geometrically towards divergent ends).
@@ -307,11 +338,9 @@ def sample_piece(b_a, b_b, div_a, div_b, n_scan, bs):
         bs[m] = 0.0
         m += 1
     elif div_a > 0.0:
-        step = 10.0 ** (-LOG_STEPS)
-        for _ in range(LOG_STEPS - 1):
-            bs[m] = b_a + max(step * width, floor_a)
+        for i in range(LOG_STEPS):
+            bs[m] = b_a + max(log_offset(i) * width, floor_a)
             m += 1
-            step *= 10.0
     else:
         bs[m] = b_a + floor_a
         m += 1
@@ -319,10 +348,8 @@ def sample_piece(b_a, b_b, div_a, div_b, n_scan, bs):
         bs[m] = b_a + 0.5 * width * (1.0 - math.cos(math.pi * i / n_scan))
         m += 1
     if div_b > 0.0:
-        step = 0.1
-        for _ in range(LOG_STEPS - 1):
-            step *= 0.1
-            bs[m] = b_b - max(step * width, floor_b)
+        for i in range(LOG_STEPS):
+            bs[m] = b_b - max(log_offset(i) * width, floor_b)
             m += 1
     else:
         bs[m] = b_b - floor_b
@@ -424,7 +451,7 @@ def add_ray(out, kinds, conv, i, k, prof, aux, geo, b, e_u, e_d, j, ok, swapped,
         return k
     if k >= out.shape[1]:
         return k + 1
-    family_f(prof, aux, geo, b, e_u, e_d, j, state)
+    legs(prof, aux, b, geo[0], geo[1], geo[2], state, 2, True)
     x = store_duct_ray(out, kinds, conv, i, k, prof, geo, b, e_u, e_d, j, ok, swapped, b_a,
                        b_b, state, state2)
     length = out[i, k, es.COL_LENGTH]
@@ -491,28 +518,60 @@ def solve_ice_duct(out, kinds, conv, i, prof, aux, x_target, z_src, z_rcv, n_sca
     nb = breakpoints(prof, aux, z_lo, z_hi, n_lo, n_hi, vals, div)
     k = 0
     at_surface = z_hi >= 0.0
+    top = prof[0]
+    k_hi = find_panel(top, z_hi)
+    if z_lo == z_hi and prof[2][k_hi] == UNIFORM and z_hi < top[k_hi]:
+        horizontal_straight(out, kinds, conv, i, k, n_hi, x_target)
+        k += 1
+    # the direct family a(b) grows with b on all of (0, b_max) (a leg with fixed
+    # ends: dX/db = int n^2 / w^3 dz > 0), so it has one root at most
+    b_max = vals[nb - 1]
+    if z_lo < z_hi and b_max > 0.0:
+        b_end = b_max - max(1e-13 * b_max, 4e-16 * b_max)
+        f_end = family_f(prof, aux, geo, b_end, 0, 0, 0, state)
+        if f_end >= 0.0:
+            b_root, ok = brent_root(prof, aux, geo, 0, 0, 0, 0.0, -x_target, b_end, f_end, state)
+            k = add_ray(out, kinds, conv, i, k, prof, aux, geo, b_root, 0, 0, 0, ok, swapped, 0.0,
+                        b_max, state, state2)
+    if at_surface:
+        return k
     for piece in range(nb - 1):
         b_a, b_b = vals[piece], vals[piece + 1]
+        if not b_b > b_a:
+            continue
+        legs(prof, aux, 0.5 * (b_a + b_b), z_lo, z_hi, n_hi, state, 2, False)
+        surface_top = state[10] > 0.0
+        has_bottom = state[12] > 0.0
+        if surface_top and not has_bottom:
+            # the up-going family reflected at the surface: fixed-end legs only, so
+            # it grows with b too: its ends decide
+            lo = b_a if b_a == 0.0 else b_a + max(1e-13 * (b_b - b_a), 4e-16 * b_a)
+            hi = b_b - max(1e-13 * (b_b - b_a), 4e-16 * b_b)
+            f_lo = -x_target if lo == 0.0 else family_f(prof, aux, geo, lo, 1, 0, 0, state)
+            f_hi = family_f(prof, aux, geo, hi, 1, 0, 0, state)
+            if (f_lo < 0.0) != (f_hi < 0.0):
+                b_root, ok = brent_root(prof, aux, geo, 1, 0, 0, lo, f_lo, hi, f_hi, state)
+                k = add_ray(out, kinds, conv, i, k, prof, aux, geo, b_root, 1, 0, 0, ok, swapped,
+                            b_a, b_b, state, state2)
+            continue
         m = sample_piece(b_a, b_b, div[piece], div[piece + 1], n_scan, bs)
         p_min_sample = math.inf
-        has_bottom = False
         for s in range(m):
-            legs(prof, aux, bs[s], z_lo, z_hi, n_hi, sv[s])
-            if sv[s][12] > 0.0:
-                has_bottom = True
+            legs(prof, aux, bs[s], z_lo, z_hi, n_hi, sv[s], 2 if has_bottom else 1, False)
+            if has_bottom and sv[s][12] > 0.0:
                 period = 2.0 * (sv[s][0] + sv[s][3] + sv[s][6])
                 if period < p_min_sample:
                     p_min_sample = period
-        max_up = 0 if at_surface else 1
         if not has_bottom:
-            for e_u in range(max_up + 1):
-                k = solve_family(out, kinds, conv, i, k, prof, aux, geo, e_u, 0, 0, swapped, bs,
-                                 sv, m, b_a, b_b, fs, state, state2)
+            k = solve_family(out, kinds, conv, i, k, prof, aux, geo, 1, 0, 0, swapped, bs, sv, m,
+                             b_a, b_b, fs, state, state2)
             continue
         j_max = int(x_target / p_min_sample) + 1 if p_min_sample > 0.0 else 0
         for j in range(j_max + 1):
             for e_d in range(2):
-                for e_u in range(max_up + 1):
+                for e_u in range(2):
+                    if e_u == 0 and e_d == 0 and j == 0:
+                        continue          # the direct family, solved above
                     k = solve_family(out, kinds, conv, i, k, prof, aux, geo, e_u, e_d, j,
                                      swapped, bs, sv, m, b_a, b_b, fs, state, state2)
     return k
