@@ -461,10 +461,33 @@ def add_ray(out, kinds, conv, i, k, prof, aux, geo, b, e_u, e_d, j, ok, swapped,
 
 
 @lean_kernel
+def hidden_pair(out, kinds, conv, i, k, prof, aux, geo, e_u, e_d, j, swapped, sign, t_a, f_a,
+                t_b, f_b, t0, f0, b_a, b_b, state, state2):
+    """Brent's extremum search in [t_a, t_b] from (t0, f0); if the extremum
+    crosses zero, store the root on each side of it.  Returns the new count."""
+    t_e, f_e = extremum(prof, aux, geo, e_u, e_d, j, sign, t_a, t_b, t0, f0, state)
+    if sign * f_e > 0.0:
+        b1, ok1 = brent_root(prof, aux, geo, e_u, e_d, j, t_a, f_a, t_e, f_e, state)
+        k = add_ray(out, kinds, conv, i, k, prof, aux, geo, b1, e_u, e_d, j, ok1, swapped, b_a,
+                    b_b, state, state2)
+        b2, ok2 = brent_root(prof, aux, geo, e_u, e_d, j, t_e, f_e, t_b, f_b, state)
+        k = add_ray(out, kinds, conv, i, k, prof, aux, geo, b2, e_u, e_d, j, ok2, swapped, b_a,
+                    b_b, state, state2)
+    return k
+
+
+@lean_kernel
 def solve_family(out, kinds, conv, i, k, prof, aux, geo, e_u, e_d, j, swapped, bs, sv, m,
-                 b_a, b_b, fs, state, state2):
+                 b_a, b_b, div_a, div_b, fs, state, state2):
     """Every root of family (e_u, e_d, j) among the m samples bs (legs in sv);
-    returns the new ray count."""
+    returns the new ray count.
+
+    Besides the sign changes and the sampled extrema on the wrong side of
+    zero, the first and last scan intervals are searched for an extremum
+    when the piece's end there is not divergent: at the least index between
+    the end points (b_max) the leg to the top turning point shrinks like
+    sqrt(b_max - b), so X turns just before the end, between the last
+    samples (the largest reach of the family often lies there)."""
     x_target = geo[3]
     for s in range(m):
         fs[s] = combine(sv[s], 0, e_u, e_d, j) - x_target
@@ -500,6 +523,38 @@ def solve_family(out, kinds, conv, i, k, prof, aux, geo, e_u, e_d, j, swapped, b
                     b2, ok2 = brent_root(prof, aux, geo, e_u, e_d, j, t_e, f_e, hi_b, hi_f, state)
                     k = add_ray(out, kinds, conv, i, k, prof, aux, geo, b2, e_u, e_d, j, ok2,
                                 swapped, b_a, b_b, state, state2)
+    # the end intervals at non-divergent ends (b = 0 excluded: X = 0 there)
+    for end in range(2):
+        if m < 2:
+            break
+        if end == 0:
+            if div_a > 0.0 or bs[0] == 0.0:
+                continue
+            s0, s1 = 0, 1
+        else:
+            if div_b > 0.0:
+                continue
+            s0, s1 = m - 2, m - 1
+        fa, fb = fs[s0], fs[s1]
+        if not (math.isfinite(fa) and math.isfinite(fb)):
+            continue
+        sign = 1 if (fa < 0.0 and fb < 0.0) else (-1 if (fa > 0.0 and fb > 0.0) else 0)
+        # only where the samples head towards the end (else the interior sample
+        # next to it is a sampled extremum, searched above)
+        toward = (fb - fa) if end == 1 else (fa - fb)
+        if sign != 0 and sign * toward > 0.0:
+            t0 = 0.5 * (bs[s0] + bs[s1])
+            f0 = family_f(prof, aux, geo, t0, e_u, e_d, j, state)
+            if sign * f0 > 0.0:
+                b1, ok1 = brent_root(prof, aux, geo, e_u, e_d, j, bs[s0], fa, t0, f0, state)
+                k = add_ray(out, kinds, conv, i, k, prof, aux, geo, b1, e_u, e_d, j, ok1,
+                            swapped, b_a, b_b, state, state2)
+                b2, ok2 = brent_root(prof, aux, geo, e_u, e_d, j, t0, f0, bs[s1], fb, state)
+                k = add_ray(out, kinds, conv, i, k, prof, aux, geo, b2, e_u, e_d, j, ok2,
+                            swapped, b_a, b_b, state, state2)
+            elif sign * (f0 - fa) > 0.0 and sign * (f0 - fb) > 0.0:
+                k = hidden_pair(out, kinds, conv, i, k, prof, aux, geo, e_u, e_d, j, swapped,
+                                sign, bs[s0], fa, bs[s1], fb, t0, f0, b_a, b_b, state, state2)
     return k
 
 
@@ -564,7 +619,7 @@ def solve_ice_duct(out, kinds, conv, i, prof, aux, x_target, z_src, z_rcv, n_sca
                     p_min_sample = period
         if not has_bottom:
             k = solve_family(out, kinds, conv, i, k, prof, aux, geo, 1, 0, 0, swapped, bs, sv, m,
-                             b_a, b_b, fs, state, state2)
+                             b_a, b_b, div[piece], div[piece + 1], fs, state, state2)
             continue
         j_max = int(x_target / p_min_sample) + 1 if p_min_sample > 0.0 else 0
         for j in range(j_max + 1):
@@ -573,7 +628,8 @@ def solve_ice_duct(out, kinds, conv, i, prof, aux, x_target, z_src, z_rcv, n_sca
                     if e_u == 0 and e_d == 0 and j == 0:
                         continue          # the direct family, solved above
                     k = solve_family(out, kinds, conv, i, k, prof, aux, geo, e_u, e_d, j,
-                                     swapped, bs, sv, m, b_a, b_b, fs, state, state2)
+                                     swapped, bs, sv, m, b_a, b_b, div[piece], div[piece + 1],
+                                     fs, state, state2)
     return k
 
 
