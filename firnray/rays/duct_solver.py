@@ -103,12 +103,15 @@ def legs(prof, aux, b, z_lo, z_hi, n_hi, state, need=2, full=True):
 @lean_kernel
 def combine(state, col, e_u, e_d, j):
     """a + 2 e_u U + 2 e_d D + j P of column col (0: X, 1: L, 2: c T)."""
-    a = state[col]
-    u = state[3 + col]
-    if e_d == 0 and j == 0:
-        return a + 2.0 * e_u * u
-    d = state[6 + col]
-    return a + 2.0 * e_u * u + 2.0 * e_d * d + 2.0 * j * (a + u + d)
+    # legs a family does not use are not read (they may not have been evaluated)
+    total = state[col]
+    if e_u > 0:
+        total += 2.0 * state[3 + col]
+    if e_d > 0:
+        total += 2.0 * state[6 + col]
+    if j > 0:
+        total += 2.0 * j * (state[col] + state[3 + col] + state[6 + col])
+    return total
 
 
 @lean_kernel
@@ -690,7 +693,7 @@ def solve_pairs_duct(prof, aux, n_air, x_target, z_src, z_rcv, out, kinds, conv,
     p_min, minima = aux
     mz, mn, mc, mh = minima
     for c in numba.prange(n_chunks):
-        scratch = np.empty((6 + rows, max(width, 13)))
+        scratch = np.full((6 + rows, max(width, 13)), np.nan)
         aux_c = (p_min, (mz, mn, mc, mh))
         for i in range(c * CHUNK, min(n, (c + 1) * CHUNK)):
             solve_row_duct(i, prof, aux_c, n_air, x_target, z_src, z_rcv, out, kinds, conv, count,
@@ -703,7 +706,7 @@ def solve_pairs_duct_serial(prof, aux, n_air, x_target, z_src, z_rcv, out, kinds
     """:func:`solve_pairs_duct` on the calling thread."""
     rows = n_scan + 2 * LOG_STEPS + 4
     width = max(rows, aux[1][0].shape[0] + 4)
-    scratch = np.empty((6 + rows, max(width, 13)))
+    scratch = np.full((6 + rows, max(width, 13)), np.nan)
     for i in range(x_target.shape[0]):
         solve_row_duct(i, prof, aux, n_air, x_target, z_src, z_rcv, out, kinds, conv, count,
                        n_scan, scratch)
