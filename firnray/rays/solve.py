@@ -222,16 +222,23 @@ def find_rays_many(profile, sources, receivers, workers=None, reflectors=None,
         gets the ray that bounces off it once (kind "layer-reflected").  Off
         by default.
     scan_points : int, optional
-        General profiles only: the number of intervals (4 to 1000, default
-        10) at which the refracted branch of the up-going family is scanned
-        for extra extrema (``docs/theory.md`` section 11.4).  A measured table
-        with scatter can give clusters of extra rays that only a denser scan
-        resolves.
+        General profiles only (4 to 1000): for a monotone profile the number
+        of intervals (default 10) at which the refracted branch of the
+        up-going family is scanned for extra extrema (``docs/theory.md``
+        section 11.4; a measured table with scatter can give clusters of
+        extra rays that only a denser scan resolves); for a non-monotone
+        profile the Chebyshev intervals of each piece of the Snell invariant
+        (default 12, section 11.6).
 
     Returns
     -------
     RaySet
-        (N, K) arrays, NaN-padded, sorted by travel time along K.
+        (N, K) arrays, NaN-padded, sorted by travel time along K; K is as
+        many slots as the pair with most rays needs (a non-monotone profile
+        keeps up to 64 rays per pair and warns if a pair has more).  Rays
+        carry their numbers of turning points and surface reflections; in a
+        non-monotone profile rays that turn two or more times without a
+        surface reflection are of kind "ducted".
 
     Raises
     ------
