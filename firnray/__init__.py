@@ -40,7 +40,8 @@ from firnray.studies.delays import DelayGrid, DelayInversion, distance_from_dela
 from firnray.studies.profile_fit import PulserDelays, ProfileFit, fit_profile_to_delays
 from firnray.studies.reconstruction import (ReconstructionReport, VertexSample, read_vertex_csv,
                                             validate_reconstruction)
-from firnray.studies.shadow import reachability_map, shadow_boundary
+from firnray.studies.shadow import (IlluminationMap, illumination_map, reachability_map,
+                                    shadow_boundary)
 from firnray.studies.station import Station, load_station
 from firnray.studies.vertex import (ArrivalPrediction, VertexFit, fit_vertex, predict_arrivals,
                                     simulate_arrivals)
@@ -111,4 +112,6 @@ __all__ = [
     "open_table",
     "reachability_map",
     "shadow_boundary",
+    "IlluminationMap",
+    "illumination_map",
 ]

@@ -126,28 +126,73 @@ def _cmd_rays(args):
     return 0
 
 
+def _farthest(x, mask):
+    """Largest x [m] per row where ``mask`` holds (NaN where it never does)."""
+    idx = mask.shape[1] - 1 - np.argmax(mask[:, ::-1], axis=1)
+    return np.where(mask.any(axis=1), x[idx], np.nan)
+
+
 def _cmd_shadow(args):
+    from firnray.rays.solve import is_monotone
     profile = _load(args)
     z = _parse_grid("source-z", args.source_z)
+    monotone = is_monotone(profile)
+    if not (math.isfinite(args.min_focusing) and args.min_focusing >= 0.0):
+        raise UsageError(f"--min-focusing expects an amplitude factor >= 0, got "
+                         f"{args.min_focusing}")
+    if args.map_heights is not None and args.map_heights < 2:
+        raise UsageError(f"--map-heights expects an integer >= 2, got {args.map_heights}")
     try:
-        boundary = shadow_study.shadow_boundary(profile, args.antenna_z, z)
+        boundary = shadow_study.shadow_boundary(profile, args.antenna_z, z,
+                                                min_focusing=args.min_focusing)
+        if not monotone:
+            x = _parse_grid("distance", args.distance)
+            imap = shadow_study.illumination_map(profile, args.antenna_z, x, z,
+                                                 min_focusing=args.min_focusing)
     except ValueError as err:
         raise UsageError(str(err)) from None
     boundary = np.atleast_1d(boundary)
     print(f"profile {profile.info.get('name', args.profile)}: antenna at z = {args.antenna_z} m")
-    print(f"{'source z [m]':>14}{'shadow boundary [m]':>22}")
-    for zi, bi in zip(z, boundary):
-        print(f"{zi:>14.2f}{bi:>22.2f}")
+    if monotone:
+        print(f"{'source z [m]':>14}{'shadow boundary [m]':>22}")
+        for zi, bi in zip(z, boundary):
+            print(f"{zi:>14.2f}{bi:>22.2f}")
+    else:
+        print(f"non-monotone index: the boundary is that of rays without a duct; rays with an "
+              f"amplitude focusing below {args.min_focusing:g} are not counted; farthest lit "
+              f"distances on the --distance grid (0-{x[-1]:g} m)")
+        lit = _farthest(x, imap.lit)
+        duct = _farthest(x, imap.duct_only)
+        print(f"{'source z [m]':>14}{'shadow boundary [m]':>22}{'farthest lit [m]':>19}"
+              f"{'farthest lit only via a duct [m]':>35}")
+        for zi, bi, li, di in zip(z, boundary, lit, duct):
+            print(f"{zi:>14.2f}{bi:>22.2f}{_fmt_nan(li):>19}{_fmt_nan(di):>35}")
+        if imap.truncated.any():
+            print(f"note: {int(imap.truncated.sum())} grid point(s) have more rays than the "
+                  f"solver keeps; judged on the earliest")
     if args.plot:
         import matplotlib.pyplot as plt
         x = _parse_grid("distance", args.distance)
-        z_map = np.linspace(float(np.min(z)), min(float(np.max(z)), 0.0), 400)
-        reach, b_map = shadow_study.reachability_map(profile, args.antenna_z, x, z_map)
-        fig, ax = plt.subplots(figsize=(7, 4.5))
+        heights = args.map_heights or (400 if monotone else 100)
+        z_map = np.linspace(float(np.min(z)), min(float(np.max(z)), 0.0), heights)
         from firnray.faces.plots import plot_shadow_map
-        plot_shadow_map(x, z_map, reach, b_map, ax=ax, antenna_z=args.antenna_z)
+        fig, ax = plt.subplots(figsize=(7, 4.5))
+        if monotone:
+            reach, b_map = shadow_study.reachability_map(profile, args.antenna_z, x, z_map)
+            plot_shadow_map(x, z_map, reach, b_map, ax=ax, antenna_z=args.antenna_z)
+        else:
+            imap = shadow_study.illumination_map(profile, args.antenna_z, x, z_map,
+                                                 min_focusing=args.min_focusing)
+            b_map = shadow_study.shadow_boundary(profile, args.antenna_z, z_map,
+                                                 min_focusing=args.min_focusing)
+            plot_shadow_map(x, z_map, imap.lit, b_map, ax=ax, antenna_z=args.antenna_z,
+                            duct_only=imap.duct_only)
         print(f"map written to {_save(fig, args.plot)}")
     return 0
+
+
+def _fmt_nan(value):
+    return "-" if not np.isfinite(value) else f"{value:.2f}"
 
 
 def _cmd_delays(args):
@@ -403,6 +448,10 @@ def _cmd_budget(args):
                           "rays": [{"kind": b.kind, "travel_time_ns": r.travel_time,
                                     "equivalent_distance_m": b.equivalent_distance,
                                     "focusing": b.focusing, "near_caustic": b.near_caustic,
+                                    "focusing_capped": b.focusing_capped,
+                                    "spreading_derivative_per_rad": b.spreading_derivative,
+                                    "turning_points": r.turning_points,
+                                    "surface_reflections": r.surface_reflections,
                                     "spreading_db": b.spreading_db,
                                     "fresnel_db_s": b.fresnel_db_s, "fresnel_db_p": b.fresnel_db_p,
                                     "frequencies_mhz": list(b.frequencies),
@@ -414,9 +463,17 @@ def _cmd_budget(args):
     print("\n".join(rays_table(rays, source, receiver, profile.info.get("name", args.profile))))
     print(f"\nattenuation: {label}")
     for r, b in zip(rays, budgets):
-        flag = "  (focusing capped near a caustic)" if b.near_caustic else ""
+        if b.focusing_capped:
+            flag = "  NEAR A CAUSTIC (focusing capped)"
+        elif b.near_caustic:
+            flag = "  NEAR A CAUSTIC (spreading derivative nearly vanishes)"
+        else:
+            flag = ""
+        turns = (f", {r.turning_points} turning point(s), {r.surface_reflections} surface "
+                 f"reflection(s)" if r.turning_points + r.surface_reflections > 1 else "")
         print(f"\n{r.kind} ray: equivalent distance {b.equivalent_distance:.1f} m, focusing "
-              f"{b.focusing:.3f}, surface/layer contact: {b.interaction}{flag}")
+              f"{b.focusing:.3f}, spreading derivative {b.spreading_derivative:.3g}/rad, "
+              f"surface/layer contact: {b.interaction}{turns}{flag}")
         print(f"{'f [MHz]':>9}{'absorption [dB]':>17}{'spreading [dB]':>16}{'Fresnel s/p [dB]':>19}"
               f"{'total s [dB]':>14}{'total p [dB]':>14}")
         for f, att, spr, fs, fp, ts, tp in b.rows():
@@ -518,7 +575,14 @@ def build_parser():
     p.add_argument("--source-z", default="-2000:-1:21", help="source heights START:STOP:COUNT [m]")
     p.add_argument("--distance", default="0:4000:400",
                    help="distances for the map START:STOP:COUNT [m]")
-    p.add_argument("--plot", help="write the shadow-zone map to this PNG file")
+    p.add_argument("--plot", help="write the shadow-zone map to this PNG file (cells lit only "
+                                  "by rays guided by a duct hatched, for a non-monotone index)")
+    p.add_argument("--min-focusing", type=float, default=shadow_study.MIN_FOCUSING,
+                   help="non-monotone index: rays with an amplitude focusing factor below "
+                        "this are not counted (default: %(default)g)")
+    p.add_argument("--map-heights", type=int, default=None,
+                   help="source heights in the --plot map (default: 400, or 100 for a "
+                        "non-monotone index, whose map solves every cell)")
     p.set_defaults(func=_cmd_shadow)
     p = sub.add_parser("delays", help="D/R delays on a grid, or a distance from a delay")
     _profile_arg(p)

@@ -70,7 +70,8 @@ def plot_rays(profile, rays, ax=None, profile_ax=None, n_points=300):
     return ax, (profile_ax or None)
 
 
-def plot_shadow_map(distance, source_z, reachable, boundary=None, ax=None, antenna_z=None):
+def plot_shadow_map(distance, source_z, reachable, boundary=None, ax=None, antenna_z=None,
+                    duct_only=None):
     """Draw where rays reach the antenna (shaded: shadow zone) and the boundary.
 
     Parameters
@@ -80,12 +81,16 @@ def plot_shadow_map(distance, source_z, reachable, boundary=None, ax=None, anten
     source_z : array_like, shape (nz,)
         Source heights [m].
     reachable : ndarray of bool, shape (nz, nx)
-        From ``firnray.reachability_map``.
+        From ``firnray.reachability_map`` (or ``IlluminationMap.lit``).
     boundary : array_like, shape (nz,), optional
         Shadow boundary [m] per height, drawn as a line.
     ax : matplotlib Axes, optional
     antenna_z : float, optional
         Marks the antenna [m].
+    duct_only : ndarray of bool, shape (nz, nx), optional
+        Cells lit only by rays guided by a duct (``IlluminationMap.duct_only``,
+        non-monotone profiles), drawn in light blue with a hatch; the
+        boundary line is then that of rays without a duct.
 
     Returns
     -------
@@ -96,11 +101,22 @@ def plot_shadow_map(distance, source_z, reachable, boundary=None, ax=None, anten
     z = np.asarray(source_z, float)
     ax.pcolormesh(x, z, ~np.asarray(reachable), cmap="Greys", vmin=0, vmax=2.5,
                   shading="auto")
+    handles = []
+    if duct_only is not None and np.any(duct_only):
+        from matplotlib.patches import Patch
+        duct = np.asarray(duct_only, dtype=float)
+        ax.pcolormesh(x, z, np.ma.masked_where(duct == 0, duct), cmap="Blues", vmin=0.0,
+                      vmax=2.5, shading="auto")
+        ax.contourf(x, z, duct, levels=[0.5, 1.5], colors="none", hatches=["////"])
+        handles.append(Patch(facecolor=(0.75, 0.85, 0.95), hatch="////", edgecolor="0.3",
+                             label="lit only through a duct"))
     if boundary is not None:
         b = np.asarray(boundary, float)
-        ax.plot(np.where(b > x[-1], np.nan, b), z, color="tab:red", lw=1.5,
-                label="shadow boundary")
-        ax.legend(loc="lower right", fontsize=8)
+        label = "shadow boundary" if duct_only is None else "boundary of rays without a duct"
+        handles += ax.plot(np.where(b > x[-1], np.nan, b), z, color="tab:red", lw=1.5,
+                           label=label)
+    if handles:
+        ax.legend(handles=handles, loc="lower right", fontsize=8)
     if antenna_z is not None:
         ax.plot([0.0], [antenna_z], "kv", ms=8)
     ax.set_xlim(x[0], x[-1])

@@ -3,7 +3,12 @@
 Format: a folder holding ``manifest.json`` (provenance: format and firnray
 version, creation time, profile parameters and citation, antenna height,
 grid, chunk layout, quantities, and a fingerprint of all of it) and
-``chunks/<iz>_<ix>.npz``, one NumPy archive per chunk.  Each chunk carries
+``chunks/<iz>_<ix>.npz``, one NumPy archive per chunk.  Each quantity is an
+array (source height, distance, ray slot) with as many slots as the chunk's
+node with most rays needs (at least 2, at most ``max_rays``): ducts in a
+non-monotone profile give tens of rays, and a chunk cannot know how many the
+others need; opening the table pads every chunk to the largest.  Format
+version 1 (two slots everywhere, fewer quantities) is still read.  Each chunk carries
 the fingerprint and its own position, and is written to a temporary name in
 the same folder and then renamed, so a chunk file is either complete or
 absent: several writers can fill one table at once, a run killed at any
@@ -33,10 +38,23 @@ from firnray.studies.grid import rays_to_antenna
 from firnray.version import __version__
 
 FORMAT = "firnray-lookup-table"
-VERSION = 1
-FLOAT_QUANTITIES = ("travel_time", "path_length", "launch_zenith", "arrival_zenith",
-                    "invariant", "turning_z")
-MAX_RAYS = 2
+VERSION = 2
+#: Format versions :func:`open_table` reads.
+READABLE_VERSIONS = (1, 2)
+#: Float quantities of format version 1 (two ray slots).
+FLOAT_QUANTITIES_V1 = ("travel_time", "path_length", "launch_zenith", "arrival_zenith",
+                       "invariant", "turning_z")
+#: Float quantities of the current format.
+FLOAT_QUANTITIES = FLOAT_QUANTITIES_V1 + ("lower_turning_z", "turning_points",
+                                          "surface_reflections", "equivalent_distance")
+#: Ray slots of a format version 1 table, and the fewest a chunk keeps.
+MIN_SLOTS = 2
+#: Largest number of slots a table can keep (the most rays the solver keeps per pair).
+MAX_RAYS = 64
+UNITS = {"travel_time": "ns", "path_length": "m", "launch_zenith": "deg",
+         "arrival_zenith": "deg", "invariant": "1", "turning_z": "m", "lower_turning_z": "m",
+         "turning_points": "1", "surface_reflections": "1", "equivalent_distance": "m",
+         "distance": "m", "source_z": "m", "antenna_z": "m"}
 
 
 class TableError(ValueError):
@@ -81,6 +99,8 @@ def _profile_from_record(p):
 
 def _fingerprint(record):
     keys = ("format", "version", "profile", "antenna_z", "grid", "chunk_shape", "quantities")
+    if record.get("version") != 1:
+        keys += ("max_rays",)
     core = {k: record[k] for k in keys}
     core["profile"] = {k: v for k, v in core["profile"].items() if k != "info"}
     text = json.dumps(core, sort_keys=True, separators=(",", ":"))
@@ -93,30 +113,38 @@ def compute_chunk(task):
     Parameters
     ----------
     task : dict
-        ``profile`` (n_deep, n_surface, scale_depth, n_air, z_min),
-        ``antenna_z`` [m], ``distance`` [m] and ``source_z`` [m] (1-D arrays of
-        the chunk), ``workers`` (threads, or None).
+        ``profile`` (the record of ``_profile_record``), ``antenna_z`` [m],
+        ``distance`` [m] and ``source_z`` [m] (1-D arrays of the chunk),
+        ``max_rays`` (most slots kept, or None for the table's limit of 64),
+        ``workers`` (threads, or None).
 
     Returns
     -------
     dict of ndarray
-        One (nz, nx, 2) array per float quantity, ``kind`` (int8) and
-        ``count`` (int16, (nz, nx)).
+        One (nz, nx, K) array per float quantity and ``kind`` (int8), with K
+        slots (the most rays of any node of the chunk, at least 2, at most
+        ``max_rays``), and ``count`` (int16, (nz, nx): every ray the solver
+        found, also those beyond K).
     """
     prof = _profile_from_record(task["profile"])
     x = np.asarray(task["distance"], float)
     z = np.asarray(task["source_z"], float)
     rs = rays_to_antenna(prof, task["antenna_z"], x, z, task.get("workers"))
+    cap = task.get("max_rays") or MAX_RAYS
     n = len(x) * len(z)
+    most = int(rs.count.max()) if rs.count.size else 0
+    k = min(max(MIN_SLOTS, most), cap)
     out = {}
     for q in FLOAT_QUANTITIES:
-        arr = np.full((n, MAX_RAYS), np.nan)
+        arr = np.full((n, k), np.nan)
         vals = getattr(rs, q)
-        arr[:, :min(vals.shape[1], MAX_RAYS)] = vals[:, :MAX_RAYS]
-        out[q] = arr.reshape(len(z), len(x), MAX_RAYS)
-    kinds = np.full((n, MAX_RAYS), -1, np.int8)
-    kinds[:, :min(rs.kind.shape[1], MAX_RAYS)] = rs.kind[:, :MAX_RAYS]
-    out["kind"] = kinds.reshape(len(z), len(x), MAX_RAYS)
+        m = min(vals.shape[1], k)
+        arr[:, :m] = vals[:, :m]
+        out[q] = arr.reshape(len(z), len(x), k)
+    kinds = np.full((n, k), -1, np.int8)
+    m = min(rs.kind.shape[1], k)
+    kinds[:, :m] = rs.kind[:, :m]
+    out["kind"] = kinds.reshape(len(z), len(x), k)
     out["count"] = rs.count.astype(np.int16).reshape(len(z), len(x))
     return out
 
@@ -137,20 +165,39 @@ def _write_chunk(folder, iz, ix, fingerprint, arrays):
         raise
 
 
-def _read_chunk(path, fingerprint, iz, ix, shape):
+def _quantities(record):
+    """Float quantities stored in a table of this record's format version."""
+    return FLOAT_QUANTITIES_V1 if record["version"] == 1 else FLOAT_QUANTITIES
+
+
+def _slot_limit(record):
+    """Most ray slots a chunk of this table may hold."""
+    if record["version"] == 1:
+        return MIN_SLOTS
+    return record.get("max_rays") or MAX_RAYS
+
+
+def _read_chunk(path, record, iz, ix, shape):
+    quantities = _quantities(record)
     try:
         with np.load(path) as data:
-            if str(data["fingerprint"]) != fingerprint or list(data["index"]) != [iz, ix]:
+            if str(data["fingerprint"]) != record["fingerprint"] or list(data["index"]) != [iz, ix]:
                 raise TableError(f"{path}: chunk belongs to another table (fingerprint or "
                                  f"position differs); delete it and rerun the build")
-            arrays = {k: data[k] for k in FLOAT_QUANTITIES + ("kind", "count")}
+            arrays = {k: data[k] for k in quantities + ("kind", "count")}
     except TableError:
         raise
     except Exception as err:
         raise TableError(f"{path}: corrupted chunk file ({type(err).__name__}: {err}); "
                          f"delete it and rerun the build to recompute it") from None
+    slots = arrays["kind"].shape[-1] if arrays["kind"].ndim == 3 else -1
+    limit = _slot_limit(record)
+    fewest = min(MIN_SLOTS, limit)
+    if not fewest <= slots <= limit:
+        want = f"{limit}" if fewest == limit else f"{fewest} to {limit}"
+        raise TableError(f"{path}: array 'kind' has {slots} ray slots, expected {want}")
     for k, v in arrays.items():
-        want = shape if k == "count" else shape + (MAX_RAYS,)
+        want = shape if k == "count" else shape + (slots,)
         if v.shape != want:
             raise TableError(f"{path}: array '{k}' has shape {v.shape}, expected {want}")
     return arrays
@@ -169,9 +216,10 @@ def _read_manifest(folder):
         raise TableError(f"{path}: not a firnray lookup table (format is "
                          f"{record.get('format') if isinstance(record, dict) else record!r}, "
                          f"expected {FORMAT!r})")
-    if record.get("version") != VERSION:
+    if record.get("version") not in READABLE_VERSIONS:
         raise TableError(f"{path}: table format version {record.get('version')!r}, "
-                         f"this firnray reads version {VERSION}")
+                         f"this firnray reads versions "
+                         f"{', '.join(str(v) for v in READABLE_VERSIONS)}")
     if record.get("fingerprint") != _fingerprint(record):
         raise TableError(f"{path}: manifest fingerprint does not match its contents "
                          f"(edited or corrupted)")
@@ -192,13 +240,18 @@ def _chunk_tasks(record):
 
 
 def build_table(profile, antenna_z, distance, source_z, folder, chunk_shape=(64, 64),
-                executor=None, max_workers=None, progress=False, on_chunk=None):
+                executor=None, max_workers=None, progress=False, on_chunk=None, max_rays=None):
     """Compute (or finish) a lookup table and write it to ``folder``.
+
+    Every ray of every node is kept, in time order, in as many slots as the
+    node with most rays needs (at least 2; a duct in a non-monotone profile
+    can give tens), unless ``max_rays`` caps them; ``count`` always holds
+    the number of rays found.
 
     Parameters
     ----------
-    profile : ExponentialProfile
-        The index profile.
+    profile : IndexProfile
+        The index profile (any kind; a non-monotone one too).
     antenna_z : float
         Antenna height [m].
     distance : array_like
@@ -220,6 +273,9 @@ def build_table(profile, antenna_z, distance, source_z, folder, chunk_shape=(64,
         Show a tqdm progress bar of chunks done (on stderr).
     on_chunk : callable, optional
         Called with (iz, ix) after each chunk is on disk.
+    max_rays : int, optional
+        Keep at most this many rays per node (1 to 64), the earliest; None
+        (default) keeps every ray (the solver keeps at most 64 per pair).
 
     Returns
     -------
@@ -232,6 +288,10 @@ def build_table(profile, antenna_z, distance, source_z, folder, chunk_shape=(64,
     if (not isinstance(chunk_shape, (tuple, list)) or len(chunk_shape) != 2
             or not all(isinstance(c, (int, np.integer)) and c >= 1 for c in chunk_shape)):
         raise ValueError(f"chunk_shape must be two integers >= 1, got {chunk_shape!r}")
+    if max_rays is not None and (not isinstance(max_rays, (int, np.integer))
+                                 or isinstance(max_rays, bool) or not 1 <= max_rays <= MAX_RAYS):
+        raise ValueError(f"max_rays must be None or an integer from 1 to {MAX_RAYS}, "
+                         f"got {max_rays!r}")
     record = {"format": FORMAT, "version": VERSION, "firnray_version": __version__,
               "created_utc": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"),
               "profile": _profile_record(profile), "antenna_z": antenna_z,
@@ -239,10 +299,8 @@ def build_table(profile, antenna_z, distance, source_z, folder, chunk_shape=(64,
                        "source_z": _uniform_axis("source_z", source_z)},
               "chunk_shape": [int(c) for c in chunk_shape],
               "quantities": list(FLOAT_QUANTITIES) + ["kind", "count"],
-              "max_rays": MAX_RAYS,
-              "units": {"travel_time": "ns", "path_length": "m", "launch_zenith": "deg",
-                        "arrival_zenith": "deg", "invariant": "1", "turning_z": "m",
-                        "distance": "m", "source_z": "m", "antenna_z": "m"}}
+              "max_rays": None if max_rays is None else int(max_rays),
+              "units": dict(UNITS)}
     if np.min(_axis_values(record["grid"]["source_z"])) < profile.z_min:
         raise ValueError(f"source_z reaches below the profile's valid range "
                          f"(z >= {profile.z_min} m)")
@@ -269,6 +327,7 @@ def build_table(profile, antenna_z, distance, source_z, folder, chunk_shape=(64,
     for (iz, ix, sz, sx), task in all_tasks:
         if not os.path.exists(os.path.join(chunks, _chunk_name(iz, ix))):
             task["workers"] = None if executor is None else 1
+            task["max_rays"] = record.get("max_rays")
             pending.append(((iz, ix), task))
     total = len(all_tasks)
     bar = None
@@ -338,14 +397,21 @@ class LookupTable:
         Grid axes [m].
     antenna_z : float
         Antenna height [m].
-    profile : ExponentialProfile
+    profile : IndexProfile
         The profile the table was built with.
     provenance : dict
         The manifest (format and firnray version, creation time, profile and
         its citation, grid, chunk layout, units).
+    quantities : tuple of str
+        The float quantities stored (a format version 1 table lacks
+        ``lower_turning_z``, ``turning_points``, ``surface_reflections`` and
+        ``equivalent_distance``).
+    slots : int
+        Ray slots K per node [1]: the most rays of any node (at least 2, at
+        most the build's ``max_rays``); 2 in a format version 1 table.
     data : dict of ndarray
-        Every quantity on the grid: (nz, nx, 2) floats, ``kind`` (nz, nx, 2),
-        ``count`` (nz, nx).
+        Every quantity on the grid: (nz, nx, K) floats in time order (NaN
+        where a node has fewer rays), ``kind`` (nz, nx, K), ``count`` (nz, nx).
     """
 
     def __init__(self, record, data, folder=None):
@@ -355,21 +421,31 @@ class LookupTable:
         self.source_z = _axis_values(record["grid"]["source_z"])
         self.antenna_z = record["antenna_z"]
         self.profile = _profile_from_record(record["profile"])
+        self.quantities = _quantities(record)
         self.data = data
+        self.slots = int(data["kind"].shape[2])
         self._contiguous = {}
 
     def _plane(self, quantity, ray):
-        if quantity not in FLOAT_QUANTITIES:
-            raise ValueError(f"quantity must be one of {FLOAT_QUANTITIES}, got {quantity!r}")
-        if ray not in range(MAX_RAYS):
-            raise ValueError(f"ray must be 0 (first arrival) or 1 (second), got {ray!r}")
+        if quantity not in self.quantities:
+            raise ValueError(f"quantity must be one of {self.quantities} (stored in this "
+                             f"table), got {quantity!r}")
+        if not isinstance(ray, (int, np.integer)) or isinstance(ray, bool) or not (
+                0 <= ray < self.slots):
+            raise ValueError(f"ray must be an integer from 0 (first arrival) to "
+                             f"{self.slots - 1} (the table's last ray slot), got {ray!r}")
         key = (quantity, ray)
         if key not in self._contiguous:
             self._contiguous[key] = np.ascontiguousarray(self.data[quantity][:, :, ray])
         return self._contiguous[key]
 
     def interpolate(self, distance, source_z, quantity="travel_time", ray=0):
-        """Bilinear interpolation of one quantity of the first (ray=0) or second ray.
+        """Bilinear interpolation of one quantity of the first (ray=0), second, ... ray.
+
+        Slots are in time order at each node: where the number of rays
+        changes between nodes (near a shadow boundary, or where a duct adds
+        rays) slot k is a different ray at neighbouring nodes and the
+        interpolated value mixes them.
 
         Parameters
         ----------
@@ -379,9 +455,12 @@ class LookupTable:
         quantity : str
             One of ``travel_time`` [ns], ``path_length`` [m],
             ``launch_zenith`` [deg], ``arrival_zenith`` [deg], ``invariant``
-            [1], ``turning_z`` [m].
+            [1], ``turning_z`` [m], and (format version 2)
+            ``lower_turning_z`` [m], ``turning_points`` [1],
+            ``surface_reflections`` [1], ``equivalent_distance`` [m].
         ray : int
-            0 for the first arrival, 1 for the second.
+            Slot: 0 for the first arrival, 1 for the second, up to
+            ``slots - 1``.
 
         Returns
         -------
@@ -406,8 +485,8 @@ class LookupTable:
         """Measured interpolation error against the exact solver between the nodes.
 
         Draws ``n_points`` random points inside grid cells (seeded), solves
-        them exactly and compares, per quantity and ray, where both give a
-        value.
+        them exactly and compares, per quantity and ray slot, where both give
+        a value.
 
         Returns
         -------
@@ -424,7 +503,7 @@ class LookupTable:
         report = {}
         missing = 0
         for q in quantities:
-            for ray in range(MAX_RAYS):
+            for ray in range(self.slots):
                 got = self.interpolate(x, z, q, ray)
                 if exact.travel_time.shape[1] <= ray:
                     continue
@@ -455,9 +534,7 @@ def open_table(folder):
     record = _read_manifest(folder)
     nz = record["grid"]["source_z"]["count"]
     nx = record["grid"]["distance"]["count"]
-    data = {q: np.full((nz, nx, MAX_RAYS), np.nan) for q in FLOAT_QUANTITIES}
-    data["kind"] = np.full((nz, nx, MAX_RAYS), -1, np.int8)
-    data["count"] = np.zeros((nz, nx), np.int16)
+    chunks = []
     missing = []
     for (iz, ix, sz, sx), _ in _chunk_tasks(record):
         path = os.path.join(folder, "chunks", _chunk_name(iz, ix))
@@ -465,9 +542,18 @@ def open_table(folder):
             missing.append(_chunk_name(iz, ix))
             continue
         shape = (sz.stop - sz.start, sx.stop - sx.start)
-        for k, v in _read_chunk(path, record["fingerprint"], iz, ix, shape).items():
-            data[k][sz, sx] = v
+        chunks.append((sz, sx, _read_chunk(path, record, iz, ix, shape)))
     if missing:
         raise TableError(f"{folder}: incomplete table, {len(missing)} chunk(s) missing "
                          f"(first: {missing[0]}); rerun the same build to finish it")
+    slots = max([c[2]["kind"].shape[2] for c in chunks] + [min(MIN_SLOTS, _slot_limit(record))])
+    data = {q: np.full((nz, nx, slots), np.nan) for q in _quantities(record)}
+    data["kind"] = np.full((nz, nx, slots), -1, np.int8)
+    data["count"] = np.zeros((nz, nx), np.int16)
+    for sz, sx, arrays in chunks:
+        for k, v in arrays.items():
+            if k == "count":
+                data[k][sz, sx] = v
+            else:
+                data[k][sz, sx, :v.shape[2]] = v
     return LookupTable(record, data, folder)

@@ -41,14 +41,16 @@ class ArrivalPrediction:
     Attributes
     ----------
     antenna_ids : list of str
-    arrival_time : ndarray, shape (V, A, 2)
-        emission time + antenna delay + travel time [ns]; NaN where no ray.
-    travel_time, arrival_zenith, launch_zenith : ndarray, shape (V, A, 2)
+    arrival_time : ndarray, shape (V, A, K)
+        emission time + antenna delay + travel time [ns] of every ray, in time
+        order (K = 2, or more where a pair has more rays: a non-monotone
+        profile with a duct, a table with scatter); NaN where no ray.
+    travel_time, arrival_zenith, launch_zenith : ndarray, shape (V, A, K)
         [ns], [deg], [deg].
     arrival_azimuth : ndarray, shape (V, A)
         Azimuth of the horizontal propagation direction at the antenna,
         counter-clockwise from +x [deg] (NaN straight above or below).
-    kind : ndarray of int8, shape (V, A, 2)
+    kind : ndarray of int8, shape (V, A, K)
         Kind codes (``kind_names``), -1 where no ray.
     count : ndarray, shape (V, A)
     dr_delay : ndarray, shape (V, A)
@@ -62,10 +64,12 @@ class ArrivalPrediction:
         self.antenna_ids = list(station.ids)
         self.vertices = vertices
 
+        k = max(2, rayset.travel_time.shape[1])
+
         def pad(arr, fill):
-            out = np.full((v * a, 2), fill, dtype=arr.dtype)
+            out = np.full((v * a, k), fill, dtype=arr.dtype)
             out[:, :arr.shape[1]] = arr
-            return out.reshape(v, a, 2)
+            return out.reshape(v, a, k)
 
         self.travel_time = pad(rayset.travel_time, np.nan)
         self.arrival_zenith = pad(rayset.arrival_zenith, np.nan)
@@ -418,8 +422,12 @@ def fit_vertex(profile, station, arrivals, search_box=None, grid=(9, 9, 8), star
 
 
 def simulate_arrivals(profile, station, vertex, emission_time=0.0, sigma=1.0, rng=None,
-                      antennas=None):
+                      antennas=None, pulses=2):
     """Arrival rows (antenna_id, time, sigma) for a vertex, with Gaussian noise.
+
+    At each antenna the ``pulses`` earliest rays give a row each (two by
+    default: the pair :func:`fit_vertex` matches; a duct in a non-monotone
+    profile can bring many more).
 
     Parameters
     ----------
@@ -434,15 +442,22 @@ def simulate_arrivals(profile, station, vertex, emission_time=0.0, sigma=1.0, rn
         Noise source (no noise if None).
     antennas : sequence of str, optional
         Restrict to these antennas.
+    pulses : int or None, optional
+        Earliest rays kept per antenna (default 2); None keeps every ray.
 
     Returns
     -------
     list of (str, float, float)
     """
+    if pulses is not None and (not isinstance(pulses, (int, np.integer))
+                               or isinstance(pulses, bool) or pulses < 1):
+        raise ValueError(f"pulses must be None or an integer >= 1, got {pulses!r}")
     pred = predict_arrivals(profile, station, vertex, emission_time)
     rows = []
     for ident, k, kind, t, zen in pred.rows(0):
         if antennas is not None and ident not in antennas:
+            continue
+        if pulses is not None and k >= pulses:
             continue
         noise = 0.0 if rng is None else float(rng.normal(0.0, sigma))
         rows.append((ident, t + noise, float(sigma)))
