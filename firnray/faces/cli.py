@@ -249,9 +249,12 @@ def _cmd_table(args):
         except ValueError as err:
             raise UsageError(str(err)) from None
         rec = table.provenance
-        print(json.dumps({k: rec[k] for k in ("format", "version", "firnray_version",
-                                              "created_utc", "profile", "antenna_z", "grid",
-                                              "chunk_shape")}, indent=2))
+        info = {k: rec[k] for k in ("format", "version", "firnray_version", "created_utc",
+                                    "profile", "antenna_z", "grid", "chunk_shape")}
+        info["max_rays"] = rec.get("max_rays")
+        info["slots"] = table.slots
+        info["quantities"] = list(table.quantities) + ["kind", "count"]
+        print(json.dumps(info, indent=2))
         return 0
     profile = _load(args)
     x = _parse_grid("distance", args.distance)
@@ -271,7 +274,8 @@ def _cmd_table(args):
     try:
         table = table_study.build_table(profile, args.antenna_z, x, z, args.folder,
                                         chunk_shape=(args.chunk, args.chunk), executor=executor,
-                                        max_workers=args.processes or None, progress=True)
+                                        max_workers=args.processes or None, progress=True,
+                                        max_rays=args.max_rays)
     except ValueError as err:
         raise UsageError(str(err)) from None
     finally:
@@ -279,9 +283,9 @@ def _cmd_table(args):
             client.close()
     rep = table.interpolation_error(n_points=2000)
     err = rep[("travel_time", 0)]
-    print(f"table written to {args.folder}: {len(z)} x {len(x)} nodes; interpolation error "
-          f"of the first travel time between the nodes: max {err['max']:.3g} ns, "
-          f"99th percentile {err['p99']:.3g} ns")
+    print(f"table written to {args.folder}: {len(z)} x {len(x)} nodes, {table.slots} ray "
+          f"slots; interpolation error of the first travel time between the nodes: max "
+          f"{err['max']:.3g} ns, 99th percentile {err['p99']:.3g} ns")
     return 0
 
 
@@ -603,6 +607,9 @@ def build_parser():
     p.add_argument("--chunk", type=int, default=64, help="chunk edge in nodes")
     p.add_argument("--processes", type=int, default=0, help="local worker processes")
     p.add_argument("--scheduler", help="address of a dask scheduler to run the chunks on")
+    p.add_argument("--max-rays", type=int, default=None,
+                   help="keep at most this many rays per node, the earliest (default: every "
+                        "ray; a duct in a non-monotone profile can give tens)")
     p.set_defaults(func=_cmd_table)
     p = sub.add_parser("vertex", help="predict pulses, fit a vertex, validate reconstructions")
     p.add_argument("action", choices=["predict", "fit", "validate"])
