@@ -140,7 +140,7 @@ class SignalBudget:
         True if the ray's focusing exceeded ``focusing_cap`` (or its
         spreading distance is unknown) and was capped.
     spreading_derivative : float
-        Relative spreading derivative |dX/dtheta_0| / X [1/rad] of the ray
+        Relative spreading derivative ``|dX/dtheta_0| / X`` [1/rad] of the ray
         (X the horizontal distance, theta_0 the launch zenith): at least 2
         for a straight ray in uniform ice, 0 at a caustic; NaN for a
         vertical ray or an unknown spreading distance, inf for a ray that
@@ -175,11 +175,11 @@ class SignalBudget:
 
 
 def spreading_derivative(ray):
-    """Relative spreading derivative |dX/dtheta_0| / X of a ray [1/rad].
+    """Relative spreading derivative ``|dX/dtheta_0| / X`` of a ray [1/rad].
 
     From the spreading distance (``docs/theory.md`` 7.1),
-    R_eq^2 = X |dX/dtheta_0| |cos theta_r| / sin theta_0, so
-    |dX/dtheta_0| / X = R_eq^2 sin theta_0 / (X^2 |cos theta_r|).
+    ``R_eq^2 = X |dX/dtheta_0| |cos theta_r| / sin theta_0``, so
+    ``|dX/dtheta_0| / X = R_eq^2 sin theta_0 / (X^2 |cos theta_r|)``.
 
     Parameters
     ----------
@@ -221,7 +221,7 @@ def signal_budget(ray, frequencies, attenuation, focusing_cap=FOCUSING_CAP, node
     nodes : int, optional
         Quadrature nodes per monotone piece (rays in monotone profiles).
     caustic_derivative : float, optional
-        A ray whose relative spreading derivative |dX/dtheta_0| / X is
+        A ray whose relative spreading derivative ``|dX/dtheta_0| / X`` is
         below this [1/rad] is flagged ``near_caustic`` (default 0.05, 40
         times below the least value of a straight ray in uniform ice).
 
