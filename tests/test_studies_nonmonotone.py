@@ -378,3 +378,30 @@ def test_focusing_helpers_match_ray_objects():
             assert foc[i, k] == pytest.approx(ray.focusing, rel=1e-14)
             assert counted[i, k] == (ray.focusing >= 1e-3)
             assert guided[i, k] == (ray.lower_turning_z is not None)
+
+
+def test_guide_example_of_a_duct_at_the_demo_site():
+    """Internal: the numbers quoted in docs/guide.md (Shadow zones and ducts in
+    non-monotone firn) for the invented layer at the invented demo site."""
+    demo = firnray.load_profile("demo-dry-firn")
+    lens = firnray.FunctionProfile(
+        lambda z: demo.index(z) - 0.04 * np.exp(-((z + 30.0) / 3.0) ** 2))
+    assert firnray.shadow_boundary(demo, -25.0, -24.0) == pytest.approx(162.7, abs=0.05)
+    assert firnray.find_rays(demo, (0.0, -24.0), (2000.0, -25.0)) == []
+    rays = firnray.find_rays(lens, (0.0, -24.0), (2000.0, -25.0))
+    assert len(rays) == 39 and {r.kind for r in rays} == {"ducted"}
+    best = max(rays, key=lambda r: r.focusing)
+    assert best.turning_points == 29
+    assert best.focusing == pytest.approx(3.34, abs=0.005)
+    assert best.travel_time == pytest.approx(10329.6, abs=0.05)
+    assert best.lower_turning_z == pytest.approx(-27.71, abs=0.005)
+    assert best.turning_z == pytest.approx(-23.86, abs=0.005)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", firnray.FirnrayWarning)
+        bud = firnray.signal_budget(best, [200.0], 800.0)
+    assert bud.total_db_s[0] == pytest.approx(77.3, abs=0.05)
+    assert bud.spreading_db == pytest.approx(55.5, abs=0.05)
+    assert bud.attenuation_db[0] == pytest.approx(21.8, abs=0.05)
+    imap = firnray.illumination_map(lens, -25.0, [150.0, 2000.0], [-29.0, -23.0, -22.0])
+    np.testing.assert_array_equal(imap.duct_only[:, 1], [True, True, False])
+    np.testing.assert_array_equal(imap.farthest_lit(), [2000.0, 2000.0, 150.0])
