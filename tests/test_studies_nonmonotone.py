@@ -27,6 +27,7 @@ Checks (each names its outside source or says it is internal):
 
 import math
 import os
+import shutil
 import sys
 import warnings
 
@@ -314,9 +315,10 @@ def test_table_keeps_every_ray_of_the_duct(tmp_path):
                             max_rays=4)
 
 
-def test_version_1_table_still_opens():
+def test_version_1_table_still_opens(tmp_path):
     """Internal: a table written in format version 1 (two fixed slots) opens and
-    interpolates; its nodes are the rays the solver finds today."""
+    interpolates; its nodes are the rays the solver finds today; a build into its
+    folder is refused."""
     folder = os.path.join(os.path.dirname(__file__), "data", "lookup_table_v1")
     table = firnray.open_table(folder)
     assert table.provenance["version"] == 1 and table.slots == 2
@@ -331,6 +333,11 @@ def test_version_1_table_still_opens():
         table.data["travel_time"][1, 1, 0], rel=1e-14)
     with pytest.raises(ValueError, match="lower_turning_z"):
         table.interpolate(300.0, -180.0, "lower_turning_z")
+    copy = tmp_path / "v1"
+    shutil.copytree(folder, copy)
+    with pytest.raises(firnray.TableError, match="format version 1"):
+        firnray.build_table(table.profile, -80.0, table.distance, table.source_z, copy,
+                            chunk_shape=(2, 3))
 
 
 def test_vertex_round_trip_in_a_non_monotone_profile():

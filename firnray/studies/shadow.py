@@ -290,9 +290,9 @@ class IlluminationMap:
         Largest amplitude focusing factor of the cell's rays [1] (NaN without
         a ray with a known spreading distance).
     truncated : ndarray of bool, shape (nz, nx)
-        The pair has more rays than the solver keeps (64): the cell is
-        judged on the earliest 64 and, if none of them counts, marked
-        ``DUCT_ONLY`` (only ducts give so many rays).
+        The pair has as many rays as the solver keeps (64), perhaps more:
+        the cell is judged on the earliest 64 and, if none of them counts,
+        marked ``DUCT_ONLY`` (only ducts give so many rays).
     min_focusing : float
         The threshold used [1].
     """

@@ -313,6 +313,10 @@ def build_table(profile, antenna_z, distance, source_z, folder, chunk_shape=(64,
     manifest = os.path.join(folder, "manifest.json")
     if os.path.exists(manifest):
         old = _read_manifest(folder)
+        if old["version"] != record["version"]:
+            raise TableError(f"{folder}: holds a table in format version {old['version']}, "
+                             f"this firnray writes version {record['version']}; open it with "
+                             f"open_table, or build into another folder")
         if old["fingerprint"] != record["fingerprint"]:
             raise TableError(f"{folder}: holds a different table (profile, antenna, grid or "
                              f"chunks differ); choose another folder or delete it")
