@@ -37,6 +37,7 @@ import numpy as np
 
 from firnray.constants import SPEED_OF_LIGHT
 from firnray.rays import exponential_solver as es
+from firnray.rays.bracketing import brent_min_step, brent_min_update
 from firnray.rays.duct_kernels import SOFT, TURNING, crossing_down, crossing_up, leg
 from firnray.rays.exponential_kernels import KERNEL_OPTIONS
 from firnray.rays.panel_kernels import UNIFORM, find_panel, index_at, lean_kernel
@@ -54,7 +55,6 @@ MAX_SLOTS = 64
 #: Kind code of a ray with two or more turning points and no surface reflection.
 DUCTED = 5
 MAX_ITER = 100
-GOLDEN = 0.3819660112501051
 
 
 @lean_kernel
@@ -213,45 +213,9 @@ def extremum(prof, aux, geo, e_u, e_d, j, sign, t_a, t_b, t0, f0, state):
                     if f_v > 0.0 and fx - f_v < 0.1 * f_v and evaluations >= 4:
                         break
         evaluations += 1
-        parabolic = False
-        if abs(e) > tol1:
-            r = (x - w) * (fx - fv)
-            q = (x - v) * (fx - fw)
-            pp = (x - v) * q - (x - w) * r
-            q = 2.0 * (q - r)
-            if q > 0.0:
-                pp = -pp
-            q = abs(q)
-            if abs(pp) < abs(0.5 * q * e) and pp > q * (a - x) and pp < q * (bb - x):
-                e = d
-                d = pp / q
-                u = x + d
-                if u - a < tol2 or bb - u < tol2:
-                    d = tol1 if x < m else -tol1
-                parabolic = True
-        if not parabolic:
-            e = (bb - x) if x < m else (a - x)
-            d = GOLDEN * e
-        u = x + d if abs(d) >= tol1 else x + (tol1 if d > 0 else -tol1)
+        u, d, e = brent_min_step(x, w, v, fx, fw, fv, a, bb, d, e, tol1)
         fu = -sign * family_f(prof, aux, geo, u, e_u, e_d, j, state)
-        if fu <= fx:
-            if u < x:
-                bb = x
-            else:
-                a = x
-            v, fv = w, fw
-            w, fw = x, fx
-            x, fx = u, fu
-        else:
-            if u < x:
-                a = u
-            else:
-                bb = u
-            if fu <= fw or w == x:
-                v, fv = w, fw
-                w, fw = u, fu
-            elif fu <= fv or v == x or v == w:
-                v, fv = u, fu
+        x, w, v, fx, fw, fv, a, bb = brent_min_update(u, fu, x, w, v, fx, fw, fv, a, bb)
     return x, -sign * fx
 
 
@@ -658,20 +622,7 @@ def solve_row_duct(i, prof, aux, n_air, x_target, z_src, z_rcv, out, kinds, conv
         n = solve_ice_duct(out, kinds, conv, i, prof, aux, x, zs, zr, n_scan, scratch)
     count[i] = n
     n = min(n, n_slots)
-    for mm in range(1, n):
-        j = mm
-        while j > 0 and out[i, j, es.COL_TIME] < out[i, j - 1, es.COL_TIME]:
-            for c in range(es.N_COLS):
-                tmp = out[i, j, c]
-                out[i, j, c] = out[i, j - 1, c]
-                out[i, j - 1, c] = tmp
-            kk = kinds[i, j]
-            kinds[i, j] = kinds[i, j - 1]
-            kinds[i, j - 1] = kk
-            cc = conv[i, j]
-            conv[i, j] = conv[i, j - 1]
-            conv[i, j - 1] = cc
-            j -= 1
+    es.sort_by_time(out, kinds, conv, i, n)
 
 
 CHUNK = 16

@@ -314,6 +314,26 @@ def up_family_peak(pair):
 
 
 @kernel
+def sort_by_time(out, kinds, conv, i, n):
+    """Insertion sort of the first n rays of row i by travel time (stable: rays of
+    equal time keep their order)."""
+    for m in range(1, n):
+        j = m
+        while j > 0 and out[i, j, COL_TIME] < out[i, j - 1, COL_TIME]:
+            for c in range(N_COLS):
+                tmp = out[i, j, c]
+                out[i, j, c] = out[i, j - 1, c]
+                out[i, j - 1, c] = tmp
+            kk = kinds[i, j]
+            kinds[i, j] = kinds[i, j - 1]
+            kinds[i, j - 1] = kk
+            cc = conv[i, j]
+            conv[i, j] = conv[i, j - 1]
+            conv[i, j - 1] = cc
+            j -= 1
+
+
+@kernel
 def store_ray(out, kinds, conv, i, k, code, b, c_time, length, launch, arrival,
               turning, slowness, converged, spread):
     out[i, k, COL_SPREAD] = spread
@@ -534,21 +554,7 @@ def solve_row(i, a, delta, s, n_air, x_target, z_src, z_rcv, layers, out, kinds,
             n += solve_layer_pair(out, kinds, conv, i, n, a, delta, s, x, zs, zr,
                                   layers[j], float(j))
     count[i] = n
-    # insertion sort of the n rays by travel time
-    for m in range(1, n):
-        j = m
-        while j > 0 and out[i, j, COL_TIME] < out[i, j - 1, COL_TIME]:
-            for c in range(N_COLS):
-                tmp = out[i, j, c]
-                out[i, j, c] = out[i, j - 1, c]
-                out[i, j - 1, c] = tmp
-            kk = kinds[i, j]
-            kinds[i, j] = kinds[i, j - 1]
-            kinds[i, j - 1] = kk
-            cc = conv[i, j]
-            conv[i, j] = conv[i, j - 1]
-            conv[i, j - 1] = cc
-            j -= 1
+    sort_by_time(out, kinds, conv, i, n)
 
 
 @numba.njit(parallel=True, **KERNEL_OPTIONS)

@@ -35,7 +35,7 @@ import numpy as np
 
 from firnray.constants import SPEED_OF_LIGHT
 from firnray.rays import exponential_solver as es
-from firnray.rays.bracketing import safeguarded_step
+from firnray.rays.bracketing import brent_min_step, brent_min_update, safeguarded_step
 from firnray.rays.exponential_kernels import KERNEL_OPTIONS
 from firnray.rays.panel_kernels import (UNIFORM, find_panel, index_at, lean_kernel, panel_level, segment,
                                         slowness, turning_point)
@@ -52,7 +52,6 @@ MAX_ITER = 200
 #: A coarse scan value (about 1e-6 relative) farther than this fraction of
 #: 1 m + x_target from the target has a certain sign; nearer ones are re-evaluated.
 COARSE_TRUST = 1e-4
-GOLDEN = 0.3819660112501051
 
 # families (mode codes of ``family``)
 DIRECT_FAMILY, UP_FAMILY, AIR_FAMILY, LAYER_FAMILY = 0, 1, 2, 3
@@ -199,45 +198,9 @@ def extremum(sign, t_a, t_b, t_best, f_best, stop_at, prof, geo, x_target):
         tol2 = 2.0 * tol1
         if abs(x - m) <= tol2 - 0.5 * (bb - a) or -fx > stop_at:
             break
-        parabolic = False
-        if abs(e) > tol1:
-            r = (x - w) * (fx - fv)
-            q = (x - v) * (fx - fw)
-            pp = (x - v) * q - (x - w) * r
-            q = 2.0 * (q - r)
-            if q > 0.0:
-                pp = -pp
-            q = abs(q)
-            if abs(pp) < abs(0.5 * q * e) and pp > q * (a - x) and pp < q * (bb - x):
-                e = d
-                d = pp / q
-                u = x + d
-                if u - a < tol2 or bb - u < tol2:
-                    d = tol1 if x < m else -tol1
-                parabolic = True
-        if not parabolic:
-            e = (bb - x) if x < m else (a - x)
-            d = GOLDEN * e
-        u = x + d if abs(d) >= tol1 else x + (tol1 if d > 0 else -tol1)
+        u, d, e = brent_min_step(x, w, v, fx, fw, fv, a, bb, d, e, tol1)
         fu = -sign * (family_x(UP_FAMILY, u, prof, geo) - x_target)
-        if fu <= fx:
-            if u < x:
-                bb = x
-            else:
-                a = x
-            v, fv = w, fw
-            w, fw = x, fx
-            x, fx = u, fu
-        else:
-            if u < x:
-                a = u
-            else:
-                bb = u
-            if fu <= fw or w == x:
-                v, fv = w, fw
-                w, fw = u, fu
-            elif fu <= fv or v == x or v == w:
-                v, fv = u, fu
+        x, w, v, fx, fw, fv, a, bb = brent_min_update(u, fu, x, w, v, fx, fw, fv, a, bb)
     return x, -sign * fx
 
 
@@ -597,20 +560,7 @@ def solve_row(i, prof, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, 
         for j in range(layers.shape[0]):
             n += solve_layer(out, kinds, conv, i, n, prof, x, zs, zr, layers[j], float(j))
     count[i] = n
-    for m in range(1, n):
-        j = m
-        while j > 0 and out[i, j, es.COL_TIME] < out[i, j - 1, es.COL_TIME]:
-            for c in range(es.N_COLS):
-                tmp = out[i, j, c]
-                out[i, j, c] = out[i, j - 1, c]
-                out[i, j - 1, c] = tmp
-            kk = kinds[i, j]
-            kinds[i, j] = kinds[i, j - 1]
-            kinds[i, j - 1] = kk
-            cc = conv[i, j]
-            conv[i, j] = conv[i, j - 1]
-            conv[i, j - 1] = cc
-            j -= 1
+    es.sort_by_time(out, kinds, conv, i, n)
 
 
 #: Rows per parallel chunk (each chunk allocates its scratch space once).
