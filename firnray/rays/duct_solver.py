@@ -605,13 +605,8 @@ def solve_row_duct(i, prof, aux, n_air, x_target, z_src, z_rcv, out, kinds, conv
                    scratch):
     """Solve pair i and order its rays by travel time."""
     n_slots = out.shape[1]
-    for k in range(n_slots):
-        for c in range(es.N_COLS):
-            out[i, k, c] = math.nan
-        kinds[i, k] = -1
-        conv[i, k] = False
     x, zs, zr = x_target[i], z_src[i], z_rcv[i]
-    if not (math.isfinite(x) and math.isfinite(zs) and math.isfinite(zr)):
+    if not es.clear_row(out, kinds, conv, i, x, zs, zr):
         count[i] = 0
         return
     if zs > 0.0 and zr > 0.0:

@@ -314,6 +314,18 @@ def up_family_peak(pair):
 
 
 @kernel
+def clear_row(out, kinds, conv, i, x, zs, zr):
+    """Empty row i (NaN, kind -1, not converged); True if its pair (horizontal
+    distance x, heights zs, zr [m]) is finite and can be solved."""
+    for k in range(out.shape[1]):
+        for c in range(N_COLS):
+            out[i, k, c] = math.nan
+        kinds[i, k] = -1
+        conv[i, k] = False
+    return math.isfinite(x) and math.isfinite(zs) and math.isfinite(zr)
+
+
+@kernel
 def sort_by_time(out, kinds, conv, i, n):
     """Insertion sort of the first n rays of row i by travel time (stable: rays of
     equal time keep their order)."""
@@ -538,14 +550,8 @@ def solve_pair(out, kinds, conv, i, a, delta, s, n_air, x_target, z_src, z_rcv):
 @kernel
 def solve_row(i, a, delta, s, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, count):
     """Solve pair i (and its bounces off ``layers``) and order its rays by travel time."""
-    n_slots = out.shape[1]
-    for k in range(n_slots):
-        for c in range(N_COLS):
-            out[i, k, c] = math.nan
-        kinds[i, k] = -1
-        conv[i, k] = False
     x, zs, zr = x_target[i], z_src[i], z_rcv[i]
-    if not (math.isfinite(x) and math.isfinite(zs) and math.isfinite(zr)):
+    if not clear_row(out, kinds, conv, i, x, zs, zr):
         count[i] = 0
         return
     n = solve_pair(out, kinds, conv, i, a, delta, s, n_air, x, zs, zr)

@@ -541,14 +541,8 @@ def solve_layer(out, kinds, conv, i, k, prof, x_target, z_src, z_rcv, z_layer, l
 @lean_kernel
 def solve_row(i, prof, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, count, scratch):
     """Solve pair i (and its bounces off ``layers``) and order its rays by travel time."""
-    n_slots = out.shape[1]
-    for k in range(n_slots):
-        for c in range(es.N_COLS):
-            out[i, k, c] = math.nan
-        kinds[i, k] = -1
-        conv[i, k] = False
     x, zs, zr = x_target[i], z_src[i], z_rcv[i]
-    if not (math.isfinite(x) and math.isfinite(zs) and math.isfinite(zr)):
+    if not es.clear_row(out, kinds, conv, i, x, zs, zr):
         count[i] = 0
         return
     if zs > 0.0 and zr > 0.0:
