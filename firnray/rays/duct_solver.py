@@ -66,7 +66,7 @@ def legs(prof, aux, b, z_lo, z_hi, n_hi, state, need=2, full=True):
     [m] (0 for the surface), [10] 1 if the top is the surface, [11] lower
     turning height [m] (-inf if none), [12] 1 if there is a bottom.
     """
-    p_min, minima = aux
+    p_min, minima = aux[0], aux[1]
     p = math.sqrt(max((n_hi - b) * (n_hi + b), 0.0))
     n_lo = index_at(prof, z_lo)
     # an end point the ray passes nearly level gets the substitution of a soft end
@@ -223,7 +223,7 @@ def extremum(prof, aux, geo, e_u, e_d, j, sign, t_a, t_b, t0, f0, state):
 def breakpoints(prof, aux, z_lo, z_hi, n_lo, n_hi, vals, div):
     """Values of b where the band's edges change, in (0, b_max], sorted, with a
     flag for ends where the legs diverge; returns their number (vals[0] = 0)."""
-    p_min, minima = aux
+    minima = aux[1]
     mz, mn = minima[0], minima[1]
     n_s = prof[4][0]
     # b_max: the least index between the end points
@@ -293,10 +293,15 @@ def log_offset(i):
 
 
 @lean_kernel
-def sample_piece(b_a, b_b, div_a, div_b, n_scan, bs):
+def sample_piece(b_a, b_b, div_a, div_b, n_scan, bs, feat_n, z_top_hi, z_top_lo, z_bot_lo, z_bot_hi, feat_z):
     """Scan points of the piece (b_a, b_b): Chebyshev points inside, the ends
-    approached to 1e-12 of the width (geometrically towards divergent ends).
-    Returns their number, in increasing b."""
+    approached to 1e-13 of the width (geometrically towards divergent ends),
+    and the index at every inflection point of n (``feat_z``, ``feat_n``)
+    that a turning point crosses in the piece (upper turning heights in
+    [z_top_lo, z_top_hi], lower ones in [z_bot_lo, z_bot_hi]): where the
+    turning point sits at a local minimum of |dn/dz| the family has a narrow
+    peak (a measured table's scatter makes many), and a sample at its centre
+    shows it.  Returns their number, in increasing b."""
     width = b_b - b_a
     m = 0
     floor_a = max(1e-13 * width, 4e-16 * b_a)
@@ -321,7 +326,17 @@ def sample_piece(b_a, b_b, div_a, div_b, n_scan, bs):
     else:
         bs[m] = b_b - floor_b
         m += 1
-    # the geometric points may pass the first Chebyshev points: sort
+    # inflection points crossed by a turning point (as many as the scratch holds)
+    cap = bs.shape[0]
+    for i in range(feat_z.shape[0]):
+        if m >= cap:
+            break
+        z = feat_z[i]
+        if (z_top_lo <= z <= z_top_hi) or (z_bot_lo <= z <= z_bot_hi):
+            if b_a < feat_n[i] < b_b:
+                bs[m] = feat_n[i]
+                m += 1
+    # the geometric and inflection points may pass the Chebyshev points: sort
     for i in range(1, m):
         j = i
         while j > 0 and bs[j] < bs[j - 1]:
@@ -576,7 +591,20 @@ def solve_ice_duct(out, kinds, conv, i, prof, aux, x_target, z_src, z_rcv, n_sca
                 k = add_ray(out, kinds, conv, i, k, prof, aux, geo, b_root, 1, 0, 0, ok, swapped,
                             b_a, b_b, state, state2)
             continue
-        m = sample_piece(b_a, b_b, div[piece], div[piece + 1], n_scan, bs)
+        # heights the turning points sweep across the piece
+        lo_b = b_a if b_a == 0.0 else b_a + max(1e-13 * (b_b - b_a), 4e-16 * b_a)
+        legs(prof, aux, lo_b, z_lo, z_hi, n_hi, state2, 2 if has_bottom else 1, False)
+        zt_a, zb_a = state2[9], state2[11]
+        legs(prof, aux, b_b - max(1e-13 * (b_b - b_a), 4e-16 * b_b), z_lo, z_hi, n_hi, state2,
+             2 if has_bottom else 1, False)
+        zt_b, zb_b = state2[9], state2[11]
+        if surface_top:
+            zt_a, zt_b = 1.0, 1.0           # no upper turning point: nothing to add
+        if not has_bottom:
+            zb_a, zb_b = 1.0, 1.0
+        m = sample_piece(b_a, b_b, div[piece], div[piece + 1], n_scan, bs, aux[2][1],
+                         max(zt_a, zt_b), min(zt_a, zt_b), min(zb_a, zb_b), max(zb_a, zb_b),
+                         aux[2][0])
         p_min_sample = math.inf
         for s in range(m):
             legs(prof, aux, bs[s], z_lo, z_hi, n_hi, sv[s], 2 if has_bottom else 1, False)
@@ -623,9 +651,13 @@ def solve_row_duct(i, prof, aux, n_air, x_target, z_src, z_rcv, out, kinds, conv
 CHUNK = 16
 
 
+#: Most inflection-point samples added to one piece of b.
+MAX_FEATURE_SAMPLES = 400
+
+
 def scratch_rows(n_scan):
-    """Rows of the per-thread scratch space: 4 + the most samples of one piece."""
-    return n_scan + 2 * LOG_STEPS + 4
+    """Rows of the per-thread scratch space for sample legs: the most samples of one piece."""
+    return n_scan + 2 * LOG_STEPS + 4 + MAX_FEATURE_SAMPLES
 
 
 @numba.njit(parallel=True, **KERNEL_OPTIONS)
@@ -633,14 +665,15 @@ def solve_pairs_duct(prof, aux, n_air, x_target, z_src, z_rcv, out, kinds, conv,
     """Solve every pair in parallel (see :func:`solve_row_duct`)."""
     n = x_target.shape[0]
     n_chunks = (n + CHUNK - 1) // CHUNK
-    rows = n_scan + 2 * LOG_STEPS + 4
+    rows = n_scan + 2 * LOG_STEPS + 4 + MAX_FEATURE_SAMPLES
     width = max(rows, aux[1][0].shape[0] + 4)
     # the parallel loop takes arrays, not a tuple of arrays: unpack and rebuild
-    p_min, minima = aux
+    p_min, minima, features = aux
     mz, mn, mc, mh = minima
+    fz, fn = features
     for c in numba.prange(n_chunks):
         scratch = np.full((6 + rows, max(width, 13)), np.nan)
-        aux_c = (p_min, (mz, mn, mc, mh))
+        aux_c = (p_min, (mz, mn, mc, mh), (fz, fn))
         for i in range(c * CHUNK, min(n, (c + 1) * CHUNK)):
             solve_row_duct(i, prof, aux_c, n_air, x_target, z_src, z_rcv, out, kinds, conv, count,
                            n_scan, scratch)
@@ -650,7 +683,7 @@ def solve_pairs_duct(prof, aux, n_air, x_target, z_src, z_rcv, out, kinds, conv,
 def solve_pairs_duct_serial(prof, aux, n_air, x_target, z_src, z_rcv, out, kinds, conv, count,
                             n_scan):
     """:func:`solve_pairs_duct` on the calling thread."""
-    rows = n_scan + 2 * LOG_STEPS + 4
+    rows = n_scan + 2 * LOG_STEPS + 4 + MAX_FEATURE_SAMPLES
     width = max(rows, aux[1][0].shape[0] + 4)
     scratch = np.full((6 + rows, max(width, 13)), np.nan)
     for i in range(x_target.shape[0]):
@@ -659,7 +692,7 @@ def solve_pairs_duct_serial(prof, aux, n_air, x_target, z_src, z_rcv, out, kinds
 
 
 def duct_arrays(stack):
-    """(p_min, minima) for the kernels: the least index of each panel, and the
+    """(p_min, minima, features) for the kernels: the least index of each panel, the
     local minima of n as (z [m], n [1], d2n/dz2 [1/m^2], panel height [m]),
     highest first."""
     from firnray.medium.panels import index_turning_levels, panel_index_range, panel_of
@@ -682,7 +715,29 @@ def duct_arrays(stack):
         curv[i] = max((nn[0] + nn[2] - 2.0 * nn[1]) / eps ** 2, 1e-12)
         hh[i] = h
     minima = (np.ascontiguousarray(mz), np.ascontiguousarray(mn), curv, hh)
-    return np.ascontiguousarray(p_min), minima
+    fz = inflection_heights(stack)
+    features = (np.ascontiguousarray(fz), np.ascontiguousarray(evaluate_panels(stack, fz)))
+    return np.ascontiguousarray(p_min), minima, features
+
+
+def inflection_heights(stack):
+    """Heights [m] where d2n/dz2 changes sign: inside cubic panels (t = -c2 / (3 c3))
+    and at knots where it jumps across zero; highest first."""
+    from firnray.medium.panels import CUBIC
+    cubic = stack.kind == CUBIC
+    c = stack.coef
+    h = stack.top - stack.bottom
+    with np.errstate(divide="ignore", invalid="ignore"):
+        t = -c[:, 2] / (3.0 * c[:, 3])
+    inside = cubic & np.isfinite(t) & (t > 0.0) & (t < 1.0) & np.isfinite(h)
+    z_in = stack.bottom[inside] + t[inside] * h[inside]
+    # second derivative at the bottom and top of each cubic panel (per t^2; the sign is what counts)
+    d2_bottom = np.where(cubic, 2.0 * c[:, 2], 0.0)
+    d2_top = np.where(cubic, 2.0 * c[:, 2] + 6.0 * c[:, 3], 0.0)
+    # knot between panel k (above) and k + 1 (below): bottom of k, top of k + 1
+    flips = (d2_bottom[:-1] * d2_top[1:] < 0.0) & cubic[:-1] & cubic[1:]
+    z_knot = stack.bottom[:-1][flips]
+    return np.unique(np.concatenate([z_in, z_knot]))[::-1]
 
 
 def allocate(n_pairs, slots=MAX_SLOTS):
