@@ -7,7 +7,7 @@ Profiles (invented, the ones of ``tests/test_ducts.py`` and
 
 * "gaussian dip": n = 1.78 - 0.43 exp(z/40) - 0.04 exp(-((z+30)/3)^2), a
   ``FunctionProfile`` with a duct above a dip at 30 m depth;
-* "lens table": samples every 0.25 m to 150 m of the same exponential with an
+* "lens table" (on ``--table-pairs`` pairs): samples every 0.25 m to 150 m of the same exponential with an
   ice lens (+0.025 at 12 m, 0.6 m wide), a density inversion (-0.02 at 45 m,
   2 m wide) and scatter of 4e-4 (seed 20261203), a ``TabulatedProfile``.
 
@@ -111,16 +111,20 @@ def main():
     parser.add_argument("--pairs", type=int, default=20_000)
     parser.add_argument("--workers", type=int, default=min(2, numba.config.NUMBA_NUM_THREADS))
     parser.add_argument("--count-pairs", type=int, default=200)
+    parser.add_argument("--table-pairs", type=int, default=1000,
+                        help="pairs for the lens table (its scatter makes it slow)")
     args = parser.parse_args()
     warnings.simplefilter("ignore", FirnrayWarning)
     src, rcv = random_in_ice_pairs(args.pairs)
     print(f"{args.pairs} random in-ice pairs, {args.workers} worker thread(s)")
     base, _ = rate(firnray.ExponentialProfile(1.78, 1.35, 40.0), src, rcv, args.workers)
     print(f"{'exponential (closed form, baseline)':<36} {base:>10,.0f} pairs/s")
-    for name, prof in (("gaussian dip (function)", dip_profile()),
-                       ("lens table (0.25 m, scatter)", lens_table_profile())):
+    for name, prof, n in (("gaussian dip (function)", dip_profile(), args.pairs),
+                          ("lens table (0.25 m, scatter)", lens_table_profile(),
+                           min(args.table_pairs, args.pairs))):
+        src, rcv = random_in_ice_pairs(n)
         r, rays = rate(prof, src, rcv, args.workers)
-        print(f"{name:<36} {r:>10,.0f} pairs/s   ratio {r / base:7.4f}   "
+        print(f"{name + f' ({n} pairs)':<36} {r:>10,.0f} pairs/s   ratio {r / base:7.4f}   "
               f"{int(rays.count.sum())} rays, at most {int(rays.count.max())} per pair, "
               f"{int((rays.kind == ds.DUCTED).sum())} ducted")
         dense = firnray.find_rays_many(prof, src, rcv, workers=args.workers, scan_points=64)
@@ -128,9 +132,10 @@ def main():
         more = int((rays.count > dense.count).sum())
         print(f"{'':<36} default scan vs 64 intervals: {int(rays.count.sum())} vs "
               f"{int(dense.count.sum())} rays; {fewer} pairs with fewer, {more} with more")
-        counts = stage_counts(prof, src, rcv, args.count_pairs)
+        counts = stage_counts(prof, src, rcv, min(args.count_pairs, n))
         total = sum(counts.values())
-        print(f"{'':<36} leg evaluations per pair ({args.count_pairs} pairs): {total:.1f}")
+        print(f"{'':<36} leg evaluations per pair ({min(args.count_pairs, n)} pairs): "
+              f"{total:.1f}")
         for k, v in counts.items():
             print(f"{'':<40} {k:<34} {v:6.1f}")
 
