@@ -198,3 +198,23 @@ def test_paths_end_at_receiver_and_keep_the_invariant(name, solved):
         np.testing.assert_allclose(b_path, ray.invariant, rtol=2e-3)
         turns = np.sum(np.diff(np.sign(dz[np.abs(dz) > 0])) != 0)
         assert turns == ray.turning_points + ray.surface_reflections
+
+
+from hypothesis import given, settings, strategies as st  # noqa: E402
+
+
+@settings(max_examples=60, deadline=None, derandomize=True)
+@given(st.floats(min_value=-400.0, max_value=-0.5), st.floats(min_value=-200.0, max_value=-0.5),
+       st.floats(min_value=1.0, max_value=1500.0))
+def test_reciprocity_and_invariant_on_random_pairs(z_src, z_rcv, x):
+    """Fermat's principle (common practice): swapping the end points gives the
+    same rays; Snell's law: each ray's invariant is n sin(zenith) at both ends."""
+    fwd = firnray.find_rays(DIP, (0.0, z_src), (x, z_rcv))
+    back = firnray.find_rays(DIP, (0.0, z_rcv), (x, z_src))
+    assert len(fwd) == len(back)
+    np.testing.assert_allclose(sorted(r.travel_time for r in fwd),
+                               sorted(r.travel_time for r in back), atol=1e-6)
+    for r in fwd:
+        for z, zen in ((z_src, r.launch_zenith), (z_rcv, r.arrival_zenith)):
+            assert float(dip_index(z)) * math.sin(math.radians(zen)) == pytest.approx(
+                r.invariant, rel=1e-9, abs=1e-9)
