@@ -218,3 +218,36 @@ def test_reciprocity_and_invariant_on_random_pairs(z_src, z_rcv, x):
         for z, zen in ((z_src, r.launch_zenith), (z_rcv, r.arrival_zenith)):
             assert float(dip_index(z)) * math.sin(math.radians(zen)) == pytest.approx(
                 r.invariant, rel=1e-9, abs=1e-9)
+
+
+def test_layer_reflection_through_both_solvers(monkeypatch):
+    """Internal cross-check: the bounce off a reflector found by the band solver
+    (forced onto a monotone profile) equals the monotone panel solver's."""
+    prof = firnray.FunctionProfile(lambda z: 1.78 - 0.38 * np.exp(z / 30.0)
+                                   - 0.07 * np.exp(z / 4.0))
+    layers = [firnray.Reflector(-700.0, 0.1), firnray.Reflector(-300.0, 0.1)]
+    src = np.array([[0.0, -200.0], [0.0, -80.0], [0.0, -500.0]])
+    rcv = np.array([[300.0, -50.0], [600.0, -150.0], [1200.0, -100.0]])
+    plain = firnray.find_rays_many(prof, src, rcv, reflectors=layers)
+    from firnray.rays import duct_solver as ds
+    monkeypatch.setattr(solve_mod, "duct_setup", lambda stack: ds.duct_arrays(stack))
+    forced = firnray.find_rays_many(prof, src, rcv, reflectors=layers)
+    np.testing.assert_array_equal(forced.count, plain.count)
+    np.testing.assert_array_equal(forced.kind, plain.kind)
+    np.testing.assert_allclose(forced.travel_time, plain.travel_time, atol=1e-6)
+    np.testing.assert_allclose(forced.launch_zenith, plain.launch_zenith, atol=1e-6)
+    np.testing.assert_allclose(forced.equivalent_distance, plain.equivalent_distance, rtol=1e-4)
+
+
+def test_layer_reflection_in_the_dip_profile_is_reciprocal():
+    layer = [firnray.Reflector(-500.0, 0.1)]
+    a = [r for r in firnray.find_rays(DIP, (0.0, -60.0), (400.0, -20.0), reflectors=layer)
+         if r.kind == "layer-reflected"]
+    b = [r for r in firnray.find_rays(DIP, (0.0, -20.0), (400.0, -60.0), reflectors=layer)
+         if r.kind == "layer-reflected"]
+    assert len(a) == len(b) == 1
+    assert a[0].travel_time == pytest.approx(b[0].travel_time, abs=1e-6)
+    assert a[0].launch_zenith > 90.0 and a[0].arrival_zenith < 90.0
+    pts = a[0].path(300)
+    assert pts["z"].min() == pytest.approx(-500.0, abs=1e-6)
+    assert pts["x"][-1] == pytest.approx(400.0, abs=1e-5)

@@ -117,10 +117,67 @@ def combine(state, col, e_u, e_d, j):
 @lean_kernel
 def family_f(prof, aux, geo, b, e_u, e_d, j, state):
     """X - x_target [m] of family (e_u, e_d, j) at b."""
-    z_lo, z_hi, n_hi, x_target = geo
+    z_lo, z_hi, n_hi, x_target, z_layer = geo
+    if e_u < 0:          # the ray that bounces off a reflector at z_layer
+        layer_legs(prof, aux, b, z_lo, z_hi, n_hi, z_layer, state, False)
+        return state[0] - x_target
     need = 2 if (e_d > 0 or j > 0) else (1 if e_u > 0 else 0)
     legs(prof, aux, b, z_lo, z_hi, n_hi, state, need, False)
     return combine(state, 0, e_u, e_d, j) - x_target
+
+
+@lean_kernel
+def layer_legs(prof, aux, b, z_lo, z_hi, n_hi, z_layer, state, full):
+    """state[0:3] = X, L, c T of the ray down from z_lo to a reflector at
+    z_layer < z_lo and back up to z_hi (two legs with fixed ends, b below the
+    least index between z_layer and z_hi)."""
+    minima = aux[1]
+    p = math.sqrt(max((n_hi - b) * (n_hi + b), 0.0))
+    r1 = leg(prof, minima, b, n_hi, p, z_layer, z_lo, 0, 0, full)
+    r2 = leg(prof, minima, b, n_hi, p, z_layer, z_hi, 0, 0, full)
+    state[0], state[1], state[2] = r1[0] + r2[0], r1[1] + r2[1], r1[2] + r2[2]
+
+
+@lean_kernel
+def solve_layer_duct(out, kinds, conv, i, k, prof, aux, x_target, z_src, z_rcv, z_layer,
+                     layer_index, state, state2):
+    """The ray that bounces once off a reflector at z_layer below both points.
+
+    Its two legs have fixed ends, so X grows with b on (0, b_L), b_L the least
+    index between z_layer and the shallower point: one root at most.  Returns
+    the number of rays added (0 or 1)."""
+    swapped = z_src > z_rcv
+    z_lo, z_hi = (z_rcv, z_src) if swapped else (z_src, z_rcv)
+    if not z_layer < z_lo:
+        return 0
+    minima = aux[1]
+    mz, mn = minima[0], minima[1]
+    n_hi = index_at(prof, z_hi)
+    b_l = min(n_hi, index_at(prof, z_layer))
+    b_l = min(b_l, index_at(prof, z_lo))
+    for m in range(mz.shape[0]):
+        if z_layer < mz[m] < z_hi:
+            b_l = min(b_l, mn[m])
+    geo = (z_lo, z_hi, n_hi, x_target, z_layer)
+    b_end = b_l * (1.0 - 1e-13)
+    f_end = family_f(prof, aux, geo, b_end, -1, 0, 0, state)
+    if not f_end >= 0.0:
+        return 0
+    b, ok = brent_root(prof, aux, geo, -1, 0, 0, 0.0, -x_target, b_end, f_end, state)
+    if k >= out.shape[1]:
+        return 1
+    layer_legs(prof, aux, b, z_lo, z_hi, n_hi, z_layer, state, True)
+    n_lo = index_at(prof, z_lo)
+    th_lo = math.atan2(b, math.sqrt(max((n_lo - b) * (n_lo + b), 0.0)))
+    th_hi = math.atan2(b, math.sqrt(max((n_hi - b) * (n_hi + b), 0.0)))
+    # down from the source, up to the receiver
+    launch, arrival = (math.pi - th_hi, th_lo) if swapped else (math.pi - th_lo, th_hi)
+    es.store_ray(out, kinds, conv, i, k, es.LAYER_REFLECTED, b, state[2], state[1], launch,
+                 arrival, math.nan, math.sqrt(max((n_hi - b) * (n_hi + b), 0.0)), ok, state[1])
+    out[i, k, es.COL_LAYER] = layer_index
+    out[i, k, es.COL_SPREAD] = spreading(prof, aux, geo, b, -1, 0, 0, 0.0, b_l, state[0],
+                                         state[1], swapped, state2)
+    return 1
 
 
 @lean_kernel
@@ -349,7 +406,7 @@ def sample_piece(b_a, b_b, div_a, div_b, n_scan, bs, feat_n, z_top_hi, z_top_lo,
 def store_duct_ray(out, kinds, conv, i, k, prof, geo, b, e_u, e_d, j, ok, swapped, b_a, b_b,
                    state, state2):
     """Evaluate family (e_u, e_d, j) at its root b and write row i, slot k."""
-    z_lo, z_hi, n_hi, x_target = geo
+    z_lo, z_hi, n_hi, x_target, z_layer = geo
     x = combine(state, 0, e_u, e_d, j)
     length = combine(state, 1, e_u, e_d, j)
     c_time = combine(state, 2, e_u, e_d, j)
@@ -395,7 +452,7 @@ def store_duct_ray(out, kinds, conv, i, k, prof, geo, b, e_u, e_d, j, ok, swappe
 @lean_kernel
 def spreading(prof, aux, geo, b, e_u, e_d, j, b_a, b_b, x, length, swapped, state2):
     """Equivalent spreading distance R_eq [m] from a central difference of X(b)."""
-    z_lo, z_hi, n_hi, x_target = geo
+    z_lo, z_hi, n_hi, x_target, z_layer = geo
     if not x > 0.0 or not b > 0.0:
         return length
     h = 1e-7 * max(b, 1e-3)
@@ -548,7 +605,7 @@ def solve_ice_duct(out, kinds, conv, i, prof, aux, x_target, z_src, z_rcv, n_sca
     z_lo, z_hi = (z_rcv, z_src) if swapped else (z_src, z_rcv)
     n_hi = index_at(prof, z_hi)
     n_lo = index_at(prof, z_lo)
-    geo = (z_lo, z_hi, n_hi, x_target)
+    geo = (z_lo, z_hi, n_hi, x_target, math.nan)
     vals, div, bs, fs = scratch[0], scratch[1], scratch[2], scratch[3]
     state, state2 = scratch[4], scratch[5]
     sv = scratch[6:]
@@ -629,8 +686,8 @@ def solve_ice_duct(out, kinds, conv, i, prof, aux, x_target, z_src, z_rcv, n_sca
 
 
 @lean_kernel
-def solve_row_duct(i, prof, aux, n_air, x_target, z_src, z_rcv, out, kinds, conv, count, n_scan,
-                   scratch):
+def solve_row_duct(i, prof, aux, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, count,
+                   n_scan, scratch):
     """Solve pair i and order its rays by travel time."""
     n_slots = out.shape[1]
     x, zs, zr = x_target[i], z_src[i], z_rcv[i]
@@ -643,6 +700,9 @@ def solve_row_duct(i, prof, aux, n_air, x_target, z_src, z_rcv, out, kinds, conv
         n = solve_air_ice(out, kinds, conv, i, prof, n_air, x, zs, zr)
     else:
         n = solve_ice_duct(out, kinds, conv, i, prof, aux, x, zs, zr, n_scan, scratch)
+        for j in range(layers.shape[0]):
+            n += solve_layer_duct(out, kinds, conv, i, n, prof, aux, x, zs, zr, layers[j],
+                                  float(j), scratch[4], scratch[5])
     count[i] = n
     n = min(n, n_slots)
     es.sort_by_time(out, kinds, conv, i, n)
@@ -661,7 +721,8 @@ def scratch_rows(n_scan):
 
 
 @numba.njit(parallel=True, **KERNEL_OPTIONS)
-def solve_pairs_duct(prof, aux, n_air, x_target, z_src, z_rcv, out, kinds, conv, count, n_scan):
+def solve_pairs_duct(prof, aux, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv, count,
+                     n_scan):
     """Solve every pair in parallel (see :func:`solve_row_duct`)."""
     n = x_target.shape[0]
     n_chunks = (n + CHUNK - 1) // CHUNK
@@ -675,20 +736,20 @@ def solve_pairs_duct(prof, aux, n_air, x_target, z_src, z_rcv, out, kinds, conv,
         scratch = np.full((6 + rows, max(width, 13)), np.nan)
         aux_c = (p_min, (mz, mn, mc, mh), (fz, fn))
         for i in range(c * CHUNK, min(n, (c + 1) * CHUNK)):
-            solve_row_duct(i, prof, aux_c, n_air, x_target, z_src, z_rcv, out, kinds, conv, count,
-                           n_scan, scratch)
+            solve_row_duct(i, prof, aux_c, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv,
+                           count, n_scan, scratch)
 
 
 @numba.njit(**KERNEL_OPTIONS)
-def solve_pairs_duct_serial(prof, aux, n_air, x_target, z_src, z_rcv, out, kinds, conv, count,
-                            n_scan):
+def solve_pairs_duct_serial(prof, aux, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv,
+                            count, n_scan):
     """:func:`solve_pairs_duct` on the calling thread."""
     rows = n_scan + 2 * LOG_STEPS + 4 + MAX_FEATURE_SAMPLES
     width = max(rows, aux[1][0].shape[0] + 4)
     scratch = np.full((6 + rows, max(width, 13)), np.nan)
     for i in range(x_target.shape[0]):
-        solve_row_duct(i, prof, aux, n_air, x_target, z_src, z_rcv, out, kinds, conv, count,
-                       n_scan, scratch)
+        solve_row_duct(i, prof, aux, n_air, x_target, z_src, z_rcv, layers, out, kinds, conv,
+                       count, n_scan, scratch)
 
 
 def duct_arrays(stack):

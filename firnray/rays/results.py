@@ -411,11 +411,11 @@ def panel_ray_path(ray, n_points):
     z_lo, z_hi = (zr, zs) if swapped else (zs, zr)
     if ray.kind == "layer-reflected":
         zl = ray.reflector.z
-        down = _rising(zl, zs, n_points, False, s)[::-1]
-        x_down = xs(zl, down)
+        down = _rising(zl, zs, n_points, False, s)[::-1]    # from the source down to the layer
+        x_down = xs(zl, down)                               # distance from each height to the bounce
         up = _rising(zl, zr, n_points, False, s)[1:]
-        x_up = x_down[-1] + xs(zl, up)
-        return _assemble(np.concatenate([x_down[-1] - x_down, x_up]),
+        x_up = x_down[0] + xs(zl, up)
+        return _assemble(np.concatenate([x_down[0] - x_down, x_up]),
                          np.concatenate([down, up]), True)
     if ray.kind == "direct":
         if z_lo == z_hi:   # horizontal straight ray in uniform ice

@@ -120,11 +120,7 @@ def run_solver(profile, x, zs, zr, layers=es.NO_LAYERS, n_threads=None, scan_poi
     serial = n_threads == 1 or x.shape[0] < SERIAL_BELOW
     duct = None if isinstance(profile, ExponentialProfile) else duct_setup(profile.panels)
     if duct is not None:
-        if len(layers):
-            raise ValueError("reflectors are not yet supported in a non-monotone profile "
-                             "(its index decreases with depth somewhere); got "
-                             f"{len(layers)} reflector(s)")
-        table, kinds, conv, count = ds.allocate(x.shape[0])
+        table, kinds, conv, count = ds.allocate(x.shape[0], ds.MAX_SLOTS + len(layers))
         args = (solver_arrays(profile.panels), duct, profile.n_air)
         solver = ds.solve_pairs_duct_serial if serial else ds.solve_pairs_duct
         n_scan = ds.SCAN if scan_points is None else scan_points
@@ -135,7 +131,8 @@ def run_solver(profile, x, zs, zr, layers=es.NO_LAYERS, n_threads=None, scan_poi
         if not serial:
             numba.set_num_threads(n_threads)
         try:
-            solver(*args, x, zs, zr, table, kinds, conv, count, n_scan)
+            solver(*args, x, zs, zr, np.ascontiguousarray(layers, dtype=float), table, kinds,
+                   conv, count, n_scan)
         finally:
             numba.set_num_threads(previous)
         if count.size and int(count.max()) > table.shape[1]:
