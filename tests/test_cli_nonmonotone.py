@@ -96,3 +96,22 @@ def test_table_commands_report_slots(dip_file, tmp_path, capsys):
     info = json.loads(capsys.readouterr().out)
     assert info["version"] == 2 and info["slots"] == slots and info["max_rays"] is None
     assert "lower_turning_z" in info["quantities"]
+
+
+def test_rays_command_shows_turning_points_and_reflections(dip_file, capsys):
+    """Internal check: the printed counts and lower turning heights are the library's."""
+    assert main(["rays", "--profile", dip_file, "--source", "0,-25",
+                 "--receiver", "200,-26"]) == 0
+    out = capsys.readouterr().out
+    assert "lower turn [m]" in out and "surface refl." in out
+    rays = firnray.find_rays(firnray.load_profile(dip_file), (0.0, -25.0), (200.0, -26.0))
+    rows = [line.split() for line in out.splitlines() if line.split()[:1]
+            and line.split()[0] in ("direct", "refracted", "reflected", "ducted")]
+    assert len(rows) == len(rays) and any(r.kind == "ducted" for r in rays)
+    for row, ray in zip(rows, rays):
+        assert row[0] == ray.kind
+        assert int(row[-2]) == ray.turning_points and int(row[-1]) == ray.surface_reflections
+    assert main(["rays", "--profile", dip_file, "--source", "0,-25", "--receiver", "200,-26",
+                 "--json"]) == 0
+    doc = json.loads(capsys.readouterr().out)
+    assert [r["turning_points"] for r in doc["rays"]] == [r.turning_points for r in rays]

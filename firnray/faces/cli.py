@@ -91,14 +91,21 @@ def rays_table(rays, source, receiver, profile_name):
     if not rays:
         lines.append("no ray: the receiver is in the shadow zone of the source")
         return lines
+    lower = any(r.lower_turning_z is not None or r.turning_points > 1 for r in rays)
     head = (f"{'kind':<12}{'time [ns]':>14}{'launch [deg]':>14}{'arrival [deg]':>15}"
             f"{'length [m]':>13}{'turning z [m]':>15}")
+    if lower:     # non-monotone firn: the lower turning height and the counts
+        head += f"{'lower turn [m]':>16}{'turns':>7}{'surface refl.':>15}"
     lines.append(head)
     lines.append("-" * len(head))
     for r in rays:
-        lines.append(f"{r.kind:<12}{r.travel_time:>14.4f}{r.launch_zenith:>14.4f}"
-                     f"{r.arrival_zenith:>15.4f}{r.path_length:>13.4f}"
-                     f"{_fmt(r.turning_z, '.3f'):>15}")
+        line = (f"{r.kind:<12}{r.travel_time:>14.4f}{r.launch_zenith:>14.4f}"
+                f"{r.arrival_zenith:>15.4f}{r.path_length:>13.4f}"
+                f"{_fmt(r.turning_z, '.3f'):>15}")
+        if lower:
+            line += (f"{_fmt(r.lower_turning_z, '.3f'):>16}{r.turning_points:>7d}"
+                     f"{r.surface_reflections:>15d}")
+        lines.append(line)
     if len(rays) == 2:
         lines.append("")
         lines.append(f"delay between the two pulses: "
@@ -118,7 +125,8 @@ def _cmd_rays(args):
     if args.json:
         doc = {"profile": name, "source": list(source), "receiver": list(receiver),
                "units": {"travel_time": "ns", "path_length": "m", "launch_zenith": "deg",
-                         "arrival_zenith": "deg", "turning_z": "m", "invariant": "1"},
+                         "arrival_zenith": "deg", "turning_z": "m", "lower_turning_z": "m",
+                         "invariant": "1"},
                "rays": [r.as_dict() for r in rays]}
         print(json.dumps(doc, indent=2))
     else:
